@@ -1,0 +1,1 @@
+// placeholder until the hl7v2 adapter lands

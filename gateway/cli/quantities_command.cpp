@@ -1,0 +1,11 @@
+// pftgw quantities (not built yet).
+#include "gateway/cli/commands.hpp"
+
+namespace pftgw::cli {
+
+void add_quantities_command(CLI::App& app, CommandContext& ctx) {
+    auto* sub = app.add_subcommand("quantities", "not built yet");
+    sub->callback([&ctx] { ctx.exit_code = kExitUsage; });
+}
+
+}  // namespace pftgw::cli

@@ -1,0 +1,11 @@
+// pftgw reference (not built yet).
+#include "gateway/cli/commands.hpp"
+
+namespace pftgw::cli {
+
+void add_reference_command(CLI::App& app, CommandContext& ctx) {
+    auto* sub = app.add_subcommand("reference", "not built yet");
+    sub->callback([&ctx] { ctx.exit_code = kExitUsage; });
+}
+
+}  // namespace pftgw::cli

@@ -1,11 +1,186 @@
-// pftgw check (not built yet).
+// pftgw check: every finding of every input, as text, JSON or JUnit XML.
+// A device maker runs it over an export; exit 0 only when no result has an error.
+#include <fmt/core.h>
+
+#include <nlohmann/json.hpp>
+#include <pugixml.hpp>
+#include <sstream>
+
 #include "gateway/cli/commands.hpp"
+#include "gateway/cli/pipeline.hpp"
+#include "gateway/cli/report.hpp"
 
 namespace pftgw::cli {
+namespace {
+
+struct CheckOptions {
+    std::string format = "text";
+    std::string target = "all";
+    std::vector<std::string> inputs;
+};
+
+std::size_t count_severity(const std::vector<Finding>& fs, Severity s) {
+    return static_cast<std::size_t>(
+        std::count_if(fs.begin(), fs.end(), [s](const Finding& f) { return f.severity == s; }));
+}
+
+nlohmann::json finding_json(const Finding& f) {
+    nlohmann::json values = nlohmann::json::array();
+    for (const auto& [name, value] : f.values) values.push_back({{"name", name}, {"value", value}});
+    return {{"rule", f.rule},
+            {"severity", std::string(to_string(f.severity))},
+            {"path", f.path},
+            {"message", f.message},
+            {"values", values}};
+}
+
+void print_text(const std::vector<Processed>& all, const RunCounts& c) {
+    for (const auto& p : all) {
+        const char* outcome = !p.result            ? "unreadable"
+                              : p.blocked()        ? "error"
+                              : p.findings.empty() ? "ok"
+                                                   : "warnings";
+        print_findings_text(stdout, p, outcome);
+    }
+    fmt::print("\nchecked {}  without errors {}  with errors {}  unreadable {}\n", c.read,
+               c.read - c.blocked - c.unreadable, c.blocked, c.unreadable);
+    fmt::print("{}\n", kCaution);
+}
+
+void print_json(const std::vector<Processed>& all, const RunCounts& c) {
+    nlohmann::json results = nlohmann::json::array();
+    for (const auto& p : all) {
+        nlohmann::json findings = nlohmann::json::array();
+        for (const auto& f : p.findings) findings.push_back(finding_json(f));
+        results.push_back({{"source", p.source},
+                           {"id", p.result ? p.result->id : ""},
+                           {"readable", p.result.has_value()},
+                           {"errors", count_severity(p.findings, Severity::error)},
+                           {"warnings", count_severity(p.findings, Severity::warning)},
+                           {"findings", findings}});
+    }
+    nlohmann::json doc = {{"checked", c.read},
+                          {"withErrors", c.blocked},
+                          {"unreadable", c.unreadable},
+                          {"results", results},
+                          {"caution", kCaution}};
+    fmt::print("{}\n", doc.dump(2));
+}
+
+// JUnit XML in the common Ant/Surefire form: one testcase per result, a
+// <failure> per error finding, <error> for an unreadable input, warnings in <system-out>.
+void print_junit(const std::vector<Processed>& all, const RunCounts& c) {
+    pugi::xml_document doc;
+    auto decl = doc.append_child(pugi::node_declaration);
+    decl.append_attribute("version") = "1.0";
+    decl.append_attribute("encoding") = "UTF-8";
+    auto suites = doc.append_child("testsuites");
+    suites.append_attribute("name") = "pftgw check";
+    auto suite = suites.append_child("testsuite");
+    suite.append_attribute("name") = "pftgw check";
+    std::size_t failures = 0;
+    for (const auto& p : all) {
+        auto tc = suite.append_child("testcase");
+        tc.append_attribute("classname") = p.source.c_str();
+        tc.append_attribute("name") = (p.result ? p.result->id : p.source).c_str();
+        tc.append_attribute("time") = "0";
+        std::string warnings;
+        for (const auto& f : p.findings) {
+            const std::string line = f.rule + " at " + f.path + ": " + f.message;
+            if (f.severity == Severity::error) {
+                auto el = tc.append_child(p.result ? "failure" : "error");
+                el.append_attribute("message") = line.c_str();
+                el.append_attribute("type") = f.rule.c_str();
+                el.text() = line.c_str();
+            } else {
+                warnings += std::string(to_string(f.severity)) + " " + line + "\n";
+            }
+        }
+        if (p.result && has_errors(p.findings)) ++failures;
+        if (!warnings.empty()) tc.append_child("system-out").text() = warnings.c_str();
+    }
+    for (auto node : {suites, suite}) {
+        node.append_attribute("tests") = static_cast<unsigned long long>(c.read);
+        node.append_attribute("failures") = static_cast<unsigned long long>(failures);
+        node.append_attribute("errors") = static_cast<unsigned long long>(c.unreadable);
+    }
+    suite.append_attribute("skipped") = 0;
+    suite.append_attribute("time") = "0";
+    std::ostringstream ss;
+    doc.save(ss, "  ");
+    fmt::print("{}", ss.str());
+}
+
+int run_check(const CheckOptions& o) {
+    std::vector<Target> targets;
+    if (o.target == "all")
+        targets = {Target::neutral, Target::hl7v2, Target::fhir};
+    else if (o.target == "neutral")
+        targets = {Target::neutral};
+    else if (o.target == "hl7v2")
+        targets = {Target::hl7v2};
+    else if (o.target == "fhir")
+        targets = {Target::fhir};
+    else {
+        fmt::print(stderr, "pftgw check: --target must be all, neutral, hl7v2 or fhir, not '{}'\n",
+                   o.target);
+        return kExitUsage;
+    }
+    if (o.format != "text" && o.format != "json" && o.format != "junit") {
+        fmt::print(stderr, "pftgw check: --format must be text, json or junit, not '{}'\n",
+                   o.format);
+        return kExitUsage;
+    }
+    std::vector<std::string> missing;
+    const auto files = find_inputs(o.inputs, missing);
+    std::vector<Processed> all;
+    RunCounts counts;
+    auto unreadable = [&](std::string source, std::string message) {
+        Processed p;
+        p.source = std::move(source);
+        p.findings.push_back(
+            Finding{"read.unreadable", Severity::error, "", std::move(message), {}});
+        all.push_back(std::move(p));
+        ++counts.read;
+        ++counts.unreadable;
+    };
+    for (const auto& m : missing) unreadable(m, "no such file or folder: " + m);
+    for (const auto& file : files) {
+        std::string error;
+        const bool ok = for_each_document(
+            file,
+            [&](InputItem&& item) {
+                Processed p = process(std::move(item), targets);
+                ++counts.read;
+                if (!p.result)
+                    ++counts.unreadable;
+                else if (p.blocked())
+                    ++counts.blocked;
+                all.push_back(std::move(p));
+            },
+            error);
+        if (!ok) unreadable(file.string(), error);
+    }
+    if (o.format == "json")
+        print_json(all, counts);
+    else if (o.format == "junit")
+        print_junit(all, counts);
+    else
+        print_text(all, counts);
+    return exit_code_for(counts);
+}
+
+}  // namespace
 
 void add_check_command(CLI::App& app, CommandContext& ctx) {
-    auto* sub = app.add_subcommand("check", "not built yet");
-    sub->callback([&ctx] { ctx.exit_code = kExitUsage; });
+    auto opts = std::make_shared<CheckOptions>();
+    auto* sub = app.add_subcommand(
+        "check", "Check neutral results against the schema and the trade's rules");
+    sub->add_option("--format", opts->format, "Output: text, json or junit")->capture_default_str();
+    sub->add_option("--target", opts->target, "Completeness rules of: all, neutral, hl7v2 or fhir")
+        ->capture_default_str();
+    sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
+    sub->callback([opts, &ctx] { ctx.exit_code = run_check(*opts); });
 }
 
 }  // namespace pftgw::cli

@@ -1,0 +1,38 @@
+// How `convert` and `check` print findings and summaries.
+#pragma once
+
+#include <cstdio>
+#include <map>
+#include <string>
+#include <vector>
+
+#include "gateway/cli/pipeline.hpp"
+
+namespace pftgw::cli {
+
+struct RunCounts {
+    std::size_t read = 0;
+    std::size_t written = 0;
+    std::size_t with_warnings = 0;
+    std::size_t blocked = 0;
+    std::size_t unreadable = 0;
+};
+
+bool has_warnings(const std::vector<Finding>& findings);
+
+// "blocked  samples/lab/x.xml (id ...)" then one indented line per finding.
+void print_findings_text(std::FILE* out, const Processed& p, const char* outcome);
+
+void print_summary(std::FILE* out, const RunCounts& counts,
+                   const std::map<std::string, int>& rule_counts, const std::string& out_dir);
+
+// DECISIONS.md exit status: 3 if an input could not be read at all, else 1 if
+// any result was blocked, else 0.
+int exit_code_for(const RunCounts& counts);
+
+// The caution every human-readable output carries.
+inline constexpr const char* kCaution =
+    "pftgw moves and checks results; it does not diagnose. Interpretation belongs to licensed "
+    "staff and local rules.";
+
+}  // namespace pftgw::cli

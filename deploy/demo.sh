@@ -1,0 +1,44 @@
+#!/usr/bin/env bash
+# The demo: installs what is missing, builds, and runs pftgw over the invented
+# demo lab in samples/lab/ (see samples/README.md): a check, then conversions
+# to HL7 v2.5.1, FHIR R4 JSON and normalized neutral JSON in out/demo/.
+set -uo pipefail
+here=$(cd "$(dirname "${BASH_SOURCE[0]}")/.." && pwd)
+bash "$here/deploy/install-deps.sh" || exit 1
+bash "$here/deploy/build.sh" || exit 1
+
+pftgw="$here/build/pftgw"
+out="$here/out/demo"
+rm -rf "$out"
+mkdir -p "$out"
+cd "$here"
+
+echo
+echo "== pftgw check samples/lab   (some sessions are bad on purpose: samples/README.md)"
+"$pftgw" check samples/lab > "$out/check.txt"
+echo "   exit status $? (1 = some results have errors; the full report is in out/demo/check.txt)"
+tail -n 3 "$out/check.txt" | sed 's/^/   /'
+
+for to in hl7v2 fhir-json neutral-json; do
+  echo
+  echo "== pftgw convert --to $to --out out/demo/$to samples/lab"
+  "$pftgw" convert --to "$to" --out "$out/$to" samples/lab > "$out/convert-$to.txt" 2> "$out/convert-$to.blocked.txt"
+  echo "   exit status $? (1 = some results were blocked and not written; their findings: out/demo/convert-$to.blocked.txt)"
+  grep -E '^read ' "$out/convert-$to.txt" | sed 's/^/   /'
+done
+
+echo
+echo "== pftgw convert --to hl7v2 --units traditional --out out/demo/hl7v2-traditional samples/lab"
+"$pftgw" convert --to hl7v2 --units traditional --out "$out/hl7v2-traditional" samples/lab > "$out/convert-hl7v2-traditional.txt" 2>/dev/null
+grep -E '^read ' "$out/convert-hl7v2-traditional.txt" | sed 's/^/   /'
+
+first=$(ls "$out/hl7v2" | head -n 1)
+if [ -n "$first" ]; then
+  echo
+  echo "== one HL7 message, out/demo/hl7v2/$first (segments shown one per line):"
+  tr '\r' '\n' < "$out/hl7v2/$first" | head -n 12 | cut -c1-150 | sed 's/^/   /'
+  echo "   ..."
+fi
+echo
+echo "Outputs: $out"
+echo "pftgw moves and checks results; it does not diagnose. Interpretation belongs to licensed staff and local rules."

@@ -1,1 +1,0 @@
-// placeholder until the hl7v2 adapter lands

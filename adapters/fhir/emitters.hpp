@@ -1,0 +1,207 @@
+// Two emitters with one interface, so one walk over the result writes both
+// FHIR JSON and FHIR XML: the walk calls them in R4 element order, which XML
+// needs and JSON does not mind. Internal to adapters/fhir.
+#pragma once
+
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace pftgw::fhir::detail {
+
+// JSON string body: quotes, backslash and control characters escaped
+// (RFC 8259 section 7); other bytes, UTF-8 included, passed through.
+void append_json_escaped(std::string& out, std::string_view text);
+
+// XML attribute text: & < > " escaped, tab / LF / CR as character references
+// (kept by attribute-value normalization, XML 1.0 section 3.3.3); other control
+// characters cannot be written in XML 1.0 and become U+FFFD.
+void append_xml_escaped(std::string& out, std::string_view text);
+
+// Streams JSON into a string; no DOM. Every begin_* has its end_*.
+class JsonEmitter {
+public:
+    explicit JsonEmitter(std::string& out) : out_(out) {}
+
+    void begin_root(std::string_view type) {
+        out_ += "{\"resourceType\":\"";
+        out_ += type;
+        out_ += '"';
+        comma_ = true;
+    }
+    void end_root() { out_ += "}\n"; }
+
+    // Bundle.entry.resource: {"resourceType": type, ...}
+    void begin_resource(std::string_view type) {
+        key("resource");
+        out_ += "{\"resourceType\":\"";
+        out_ += type;
+        out_ += '"';
+        comma_ = true;
+    }
+    void end_resource() { close('}'); }
+
+    // A primitive; empty text is never written (FHIR has no empty strings).
+    void string(std::string_view name, std::string_view text) {
+        if (text.empty()) return;
+        key(name);
+        out_ += '"';
+        append_json_escaped(out_, text);
+        out_ += '"';
+        comma_ = true;
+    }
+    // A decimal already formatted as a JSON number.
+    void decimal(std::string_view name, std::string_view number) {
+        key(name);
+        out_ += number;
+        comma_ = true;
+    }
+
+    void begin_object(std::string_view name) {
+        key(name);
+        out_ += '{';
+        comma_ = false;
+    }
+    void end_object() { close('}'); }
+
+    void begin_array(std::string_view name) {
+        key(name);
+        out_ += '[';
+        comma_ = false;
+    }
+    void end_array() { close(']'); }
+
+    void begin_item() {
+        separate();
+        out_ += '{';
+        comma_ = false;
+    }
+    void end_item() { close('}'); }
+    void string_item(std::string_view text) {
+        separate();
+        out_ += '"';
+        append_json_escaped(out_, text);
+        out_ += '"';
+        comma_ = true;
+    }
+    // An item of an `extension` array: url is a member in JSON.
+    void begin_extension(std::string_view url) {
+        begin_item();
+        string("url", url);
+    }
+    void end_extension() { end_item(); }
+
+private:
+    void separate() {
+        if (comma_) out_ += ',';
+    }
+    void key(std::string_view name) {
+        separate();
+        out_ += '"';
+        out_ += name;
+        out_ += "\":";
+    }
+    void close(char c) {
+        out_ += c;
+        comma_ = true;
+    }
+
+    std::string& out_;
+    bool comma_ = false;
+};
+
+// Writes FHIR XML: namespace http://hl7.org/fhir, primitives as value
+// attributes, a repeating element once per item. Names are string literals.
+class XmlEmitter {
+public:
+    explicit XmlEmitter(std::string& out) : out_(out) { names_.reserve(16); }
+
+    void begin_root(std::string_view type) {
+        out_ += "<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n<";
+        out_ += type;
+        out_ += " xmlns=\"http://hl7.org/fhir\">";
+        names_.push_back(type);
+    }
+    void end_root() {
+        close_tag(names_.back());
+        names_.pop_back();
+        out_ += '\n';
+    }
+
+    // Bundle.entry.resource: <resource><Type xmlns="...">...</Type></resource>
+    void begin_resource(std::string_view type) {
+        out_ += "<resource><";
+        out_ += type;
+        out_ += " xmlns=\"http://hl7.org/fhir\">";
+        names_.push_back(type);
+    }
+    void end_resource() {
+        close_tag(names_.back());
+        names_.pop_back();
+        out_ += "</resource>";
+    }
+
+    void string(std::string_view name, std::string_view text) {
+        if (text.empty()) return;
+        value_element(name, text, true);
+    }
+    void decimal(std::string_view name, std::string_view number) {
+        value_element(name, number, false);
+    }
+
+    void begin_object(std::string_view name) {
+        open_tag(name);
+        names_.push_back(name);
+    }
+    void end_object() {
+        close_tag(names_.back());
+        names_.pop_back();
+    }
+
+    // An array is only a name here: each item repeats the element.
+    void begin_array(std::string_view name) { names_.push_back(name); }
+    void end_array() { names_.pop_back(); }
+
+    void begin_item() { open_tag(names_.back()); }
+    void end_item() { close_tag(names_.back()); }
+    void string_item(std::string_view text) {
+        if (text.empty()) return;
+        value_element(names_.back(), text, true);
+    }
+    // An item of an `extension` array: url is an attribute in XML.
+    void begin_extension(std::string_view url) {
+        out_ += '<';
+        out_ += names_.back();
+        out_ += " url=\"";
+        append_xml_escaped(out_, url);
+        out_ += "\">";
+    }
+    void end_extension() { end_item(); }
+
+private:
+    void open_tag(std::string_view name) {
+        out_ += '<';
+        out_ += name;
+        out_ += '>';
+    }
+    void close_tag(std::string_view name) {
+        out_ += "</";
+        out_ += name;
+        out_ += '>';
+    }
+    void value_element(std::string_view name, std::string_view text, bool escape) {
+        out_ += '<';
+        out_ += name;
+        out_ += " value=\"";
+        if (escape)
+            append_xml_escaped(out_, text);
+        else
+            out_ += text;
+        out_ += "\"/>";
+    }
+
+    std::string& out_;
+    std::vector<std::string_view> names_;
+};
+
+}  // namespace pftgw::fhir::detail

@@ -58,8 +58,17 @@ void append_hex_escape(unsigned char c, std::string& out) {
     out += '\\';
 }
 
+// One lookup per byte: the delimiters, the escape character and control bytes.
+constexpr std::array<bool, 256> kNeedsEscape = [] {
+    std::array<bool, 256> t{};
+    for (int c = 0; c < 0x20; ++c) t[static_cast<std::size_t>(c)] = true;
+    for (unsigned char c : std::string_view("|^&~\\")) t[c] = true;
+    t[0x7F] = true;
+    return t;
+}();
+
 bool needs_escape(unsigned char c) {
-    return c == '|' || c == '^' || c == '&' || c == '~' || c == '\\' || c < 0x20 || c == 0x7F;
+    return kNeedsEscape[c];
 }
 
 void append_text(std::string_view text, std::string& out) {
@@ -594,15 +603,21 @@ private:
         out_ += '|';
     }
 
-    // OBX-9 .. OBX-18, after OBX-8.
+    // OBX-9 .. OBX-18, after OBX-8. The part after OBX-11 is the same for
+    // every OBX of a test, so it is built once per test (obx_tail_).
     void end_obx(char status, const Timestamp* when) {
+        if (when != tail_time_ || !tail_ready_) {
+            obx_tail_.assign("|||");  // OBX-12, OBX-13
+            append_opt_ts(when, obx_tail_);
+            obx_tail_ += "||||";  // OBX-15..17
+            append_equipment(obx_tail_);
+            obx_tail_ += kSegmentEnd;
+            tail_time_ = when;
+            tail_ready_ = true;
+        }
         out_ += "|||";  // OBX-9, OBX-10
         out_ += status;
-        out_ += "|||";  // OBX-12, OBX-13
-        append_opt_ts(when, out_);
-        out_ += "||||";  // OBX-15..17
-        append_equipment();
-        out_ += kSegmentEnd;
+        out_ += obx_tail_;
     }
 
     void append_unit(std::string_view unit) {
@@ -632,10 +647,10 @@ private:
     // OBX-18 EI: device id ^ namespace (manufacturer and model). 2.5.1 allows
     // 22 characters for the field (hl7v2-dictionary 1.8.0), so the namespace is
     // sent only when it fits; the test's NTE always names the whole device.
-    void append_equipment() {
+    void append_equipment(std::string& out) const {
         constexpr std::size_t kObx18MaxLength = 22;  // HL7 2.5.1 OBX-18 length
         const Device& d = result_.device;
-        append_text(d.id, out_);
+        append_text(d.id, out);
         const std::size_t len = d.id.size();
         const std::size_t ns = d.manufacturer.size() + d.model.size() +
                                (d.manufacturer.empty() || d.model.empty() ? 0 : 1);
@@ -644,10 +659,10 @@ private:
             if (needs_escape(static_cast<unsigned char>(c))) return;
         for (char c : d.model)
             if (needs_escape(static_cast<unsigned char>(c))) return;
-        out_ += '^';
-        out_ += d.manufacturer;
-        if (!d.manufacturer.empty() && !d.model.empty()) out_ += ' ';
-        out_ += d.model;
+        out += '^';
+        out += d.manufacturer;
+        if (!d.manufacturer.empty() && !d.model.empty()) out += ' ';
+        out += d.model;
     }
 
     const NeutralResult& result_;
@@ -658,6 +673,9 @@ private:
     int obx_set_ = 0;
     int nte_set_ = 0;
     std::string note_;  // reused buffer for NTE text
+    std::string obx_tail_;
+    const Timestamp* tail_time_ = nullptr;
+    bool tail_ready_ = false;
 };
 
 }  // namespace

@@ -134,6 +134,7 @@ struct Trial {
     std::optional<Timestamp> time;
     std::optional<bool> operator_accepted;
     std::vector<Quantity> values;
+    std::string tracer;  // DLCO tracer gas: "helium", "methane", "neon"; empty if none
     bool operator==(const Trial&) const = default;
 };
 

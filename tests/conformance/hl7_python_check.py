@@ -1,0 +1,192 @@
+#!/usr/bin/python3
+"""Outside-reference check of pftgw's HL7 v2.5.1 ORU^R01 output.
+
+Reference: Debian's python3-hl7 0.4.5 (run with /usr/bin/python3; another
+python on PATH may not see it). It parses and unescapes; it does not validate
+structure (hl7_dictionary_check.mjs does that against hl7v2-dictionary 1.8.0).
+
+Usage: hl7_python_check.py HL7_DIR NEUTRAL_JSON_DIR [--quantities CSV]
+
+For every HL7_DIR/<name>.hl7 the neutral JSON NEUTRAL_JSON_DIR/<name>.json of
+the same result holds the rendered values (tests[].values[] with kind, value or
+absent, unit), tests[].comments[] and findings[]. Checks per message:
+  - hl7.parse succeeds on the UTF-8 text (MSH-18 says UNICODE UTF-8);
+  - MSH-9 is ORU^R01^ORU_R01, MSH-12 is 2.5.1, MSH-10 has 1..20 characters
+    (2.5.1 length) and no two files share one;
+  - per OBR group, the measured OBX (OBX-4 empty) are the test's values in
+    order: OBX-3 code as schemas/quantities.csv gives it (LN or 99PFTGW),
+    OBX-2 NM and OBX-5 equal to the neutral value rounded to the OBX's own
+    decimals, OBX-6 unit (unescaped) equal to the neutral unit; an absent
+    value has an empty OBX-5 and OBX-11 X;
+  - every test comment decodes (hl7's unescape) to an NTE of its OBR group,
+    exactly; every warning or error finding's message is inside a decoded NTE.
+Last line: "N passed, N failed"; exit status 1 on any failure or no input.
+"""
+
+import csv
+import json
+import os
+import sys
+
+import hl7  # Debian python3-hl7
+
+
+def field(seg, n):
+    """Field n (HL7 numbering; python-hl7 keeps MSH-1 as seg[1]) as raw text."""
+    try:
+        return str(seg[n])
+    except IndexError:
+        return ""
+
+
+def component(seg, n, c):
+    raw = field(seg, n)
+    parts = raw.split("^")
+    return parts[c - 1] if 1 <= c <= len(parts) else ""
+
+
+def fixed(value, decimals):
+    text = f"{value:.{decimals}f}"
+    if text.startswith("-") and set(text[1:]) <= {"0", "."}:
+        text = text[1:]  # the writer sends no signed zero
+    return text
+
+
+def load_codes(path):
+    codes = {}
+    with open(path, newline="", encoding="utf-8") as f:
+        for row in csv.DictReader(f):
+            system = "LN" if row["code_system"] == "LN" else "99PFTGW"
+            codes[row["key"]] = (row["code"], system)
+    return codes
+
+
+def check_message(name, text, neutral, codes, seen_ids):
+    errors = []
+    try:
+        msg = hl7.parse(text)
+    except Exception as e:  # the reference's own error is the finding
+        return [f"hl7.parse failed: {e}"]
+
+    msh = msg.segment("MSH")
+    if field(msh, 9) != "ORU^R01^ORU_R01":
+        errors.append(f"MSH-9 is {field(msh, 9)!r}")
+    if field(msh, 12) != "2.5.1":
+        errors.append(f"MSH-12 is {field(msh, 12)!r}")
+    control_id = field(msh, 10)
+    if not 1 <= len(control_id) <= 20:
+        errors.append(f"MSH-10 {control_id!r} is not 1..20 characters")
+    if control_id in seen_ids:
+        errors.append(f"MSH-10 {control_id} also in {seen_ids[control_id]}")
+    seen_ids.setdefault(control_id, name)
+
+    # OBR groups: measured OBX and decoded NTE texts per group.
+    groups = []
+    for seg in msg:
+        sid = field(seg, 0)
+        if sid == "OBR":
+            groups.append({"obx": [], "notes": []})
+        elif not groups:
+            continue
+        elif sid == "OBX" and field(seg, 4) == "":
+            groups[-1]["obx"].append(seg)
+        elif sid == "NTE":
+            # Text is one value: python-hl7 gives a Field of plain strings;
+            # nested repetitions/components mean an unescaped ^ ~ & in the text.
+            try:
+                nte3 = seg[3]
+            except IndexError:
+                nte3 = []
+            if any(not isinstance(part, str) for part in nte3):
+                errors.append(f"NTE {field(seg, 1)}: NTE-3 has unescaped delimiters: {field(seg, 3)!r}")
+                continue
+            groups[-1]["notes"].append(msg.unescape(field(seg, 3)))
+
+    tests = neutral.get("tests", [])
+    if len(groups) != len(tests):
+        errors.append(f"{len(groups)} OBR groups for {len(tests)} tests")
+        return errors
+
+    for t, (group, test) in enumerate(zip(groups, tests)):
+        values = test.get("values", [])
+        if len(group["obx"]) != len(values):
+            errors.append(f"test {t}: {len(group['obx'])} measured OBX for {len(values)} values")
+            continue
+        for obx, value in zip(group["obx"], values):
+            kind = value["kind"]
+            where = f"test {t} {kind}"
+            want = codes.get(kind)
+            got = (component(obx, 3, 1), component(obx, 3, 3))
+            if want is None or got != want:
+                errors.append(f"{where}: OBX-3 {got} but quantities.csv says {want}")
+            if "value" not in value:
+                if field(obx, 5) != "" or field(obx, 11) != "X":
+                    errors.append(f"{where}: absent but OBX-5 {field(obx, 5)!r} "
+                                  f"OBX-11 {field(obx, 11)!r}")
+                continue
+            if field(obx, 2) != "NM":
+                errors.append(f"{where}: OBX-2 {field(obx, 2)!r}")
+            shown = field(obx, 5)
+            decimals = len(shown.split(".", 1)[1]) if "." in shown else 0
+            if shown != fixed(float(value["value"]), decimals):
+                errors.append(f"{where}: OBX-5 {shown} but the neutral value "
+                              f"{value['value']} rounds to {fixed(value['value'], decimals)}")
+            unit = msg.unescape(component(obx, 6, 1))
+            if unit != value.get("unit", ""):
+                errors.append(f"{where}: OBX-6 {unit!r} but neutral unit {value.get('unit')!r}")
+            if component(obx, 6, 3) != "UCUM":
+                errors.append(f"{where}: OBX-6.3 {component(obx, 6, 3)!r}")
+        for comment in test.get("comments", []):
+            if comment not in group["notes"]:
+                errors.append(f"test {t}: comment {comment!r} not decoded from any NTE")
+
+    all_notes = [n for g in groups for n in g["notes"]]
+    for finding in neutral.get("findings", []):
+        if finding.get("severity") not in ("warning", "error"):
+            continue
+        if not any(finding["message"] in n for n in all_notes):
+            errors.append(f"finding {finding.get('rule')}: message not decoded from any NTE")
+    return errors
+
+
+def main(argv):
+    args = [a for a in argv[1:] if not a.startswith("--")]
+    here = os.path.dirname(os.path.abspath(__file__))
+    quantities = os.path.join(here, "..", "..", "schemas", "quantities.csv")
+    if "--quantities" in argv:
+        quantities = argv[argv.index("--quantities") + 1]
+        args.remove(quantities)
+    if len(args) != 2:
+        print(__doc__.strip().splitlines()[4], file=sys.stderr)
+        print("0 passed, 1 failed")
+        return 2
+    hl7_dir, json_dir = args
+    codes = load_codes(quantities)
+    names = sorted(f[:-4] for f in os.listdir(hl7_dir) if f.endswith(".hl7"))
+    passed = failed = 0
+    seen_ids = {}
+    for name in names:
+        try:
+            with open(os.path.join(hl7_dir, name + ".hl7"), "rb") as f:
+                text = f.read().decode("utf-8")
+            with open(os.path.join(json_dir, name + ".json"), encoding="utf-8") as f:
+                neutral = json.load(f)
+            errors = check_message(name, text, neutral, codes, seen_ids)
+        except (OSError, UnicodeDecodeError, ValueError) as e:
+            errors = [str(e)]
+        if errors:
+            failed += 1
+            for e in errors:
+                print(f"FAIL {name}: {e}")
+        else:
+            passed += 1
+            print(f"ok   {name}")
+    if not names:
+        print(f"no .hl7 files in {hl7_dir}")
+        failed += 1
+    print(f"{passed} passed, {failed} failed")
+    return 1 if failed else 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))

@@ -1,0 +1,88 @@
+#!/usr/bin/env bash
+# The real pftgw binary on the demo lab: each bad-input class gives its specific
+# finding and exit status, conversion is deterministic and names files by
+# result identifier, and `pftgw quantities` matches schemas/QUANTITIES.md.
+# Usage: cli_check_convert.sh PATH/TO/pftgw SOURCE_DIR
+set -uo pipefail
+pftgw=$1
+src=$2
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+cd "$src"
+passed=0
+failed=0
+ok() { passed=$((passed + 1)); }
+bad() { failed=$((failed + 1)); echo "FAIL: $*"; }
+
+# expect_rule FILE RULE STATUS: check --format json names RULE, exits STATUS.
+expect_rule() {
+  local file=$1 rule=$2 want=$3
+  "$pftgw" check --format json "$file" > "$work/out.json"
+  local rc=$?
+  if [ "$rc" -ne "$want" ]; then bad "$file: exit $rc, expected $want"; return; fi
+  if grep -q "\"rule\": \"$rule\"" "$work/out.json"; then ok; else bad "$file: no finding $rule"; cat "$work/out.json"; fi
+}
+
+# The bad samples (samples/README.md lists the rule each must give).
+expect_rule samples/lab/bad-condition-missing.xml condition.missing 1
+expect_rule samples/lab/bad-unit-not-ucum.json unit.unknown 1
+expect_rule samples/lab/bad-atps-no-ambient.xml condition.ambient-missing 1
+expect_rule samples/lab/bad-fev1-greater-than-fvc.json consistency.fev1-fvc 1
+expect_rule samples/lab/bad-fev1-80-litres.xml plausible.range 1
+expect_rule samples/lab/bad-no-patient-identifier.json complete.subject-identifier 1
+expect_rule samples/lab/bad-schema-not-numeric.xml value.not-numeric 1
+expect_rule samples/lab/bad-schema-not-numeric.json value.not-numeric 1
+expect_rule samples/lab/bad-schema-unknown-element.xml schema.unknown-element 1
+expect_rule samples/lab/bad-schema-no-offset.xml time.no-offset 1
+# Nothing usable could be read: exit 3.
+expect_rule samples/lab/bad-schema-malformed.xml xml.malformed 3
+expect_rule samples/lab/bad-schema-malformed.json json.malformed 3
+expect_rule samples/lab/bad-schema-wrong-root.xml schema.wrong-root 3
+expect_rule samples/lab/bad-schema-version-2.json schema.version-unsupported 3
+
+# A missing unit, made from a good example.
+sed 's/ value="2020" unit="mL" condition="ATPS">/ value="2020" condition="ATPS">/' \
+  samples/examples/example-spirometry.xml > "$work/no-unit.xml"
+expect_rule "$work/no-unit.xml" unit.missing 1
+# The broken XML message names line and column.
+"$pftgw" check samples/lab/bad-schema-malformed.xml > "$work/out.txt"
+if grep -Eq 'line [0-9]+, column [0-9]+' "$work/out.txt"; then ok; else bad "malformed XML message has no line/column"; cat "$work/out.txt"; fi
+# A file that does not exist: exit 3; a bad option: exit 2.
+"$pftgw" check "$work/nothing-here.xml" > /dev/null; rc=$?
+[ "$rc" -eq 3 ] && ok || bad "missing input: exit $rc, expected 3"
+"$pftgw" convert --to nonsense --out "$work/x" samples/examples > /dev/null 2>&1; rc=$?
+[ "$rc" -eq 2 ] && ok || bad "bad --to: exit $rc, expected 2"
+"$pftgw" check --bogus samples/examples > /dev/null 2>&1; rc=$?
+[ "$rc" -eq 2 ] && ok || bad "unknown option: exit $rc, expected 2"
+
+# Good examples: check exits 0; JUnit output is well-formed with one testcase per result.
+"$pftgw" check samples/examples > /dev/null; rc=$?
+[ "$rc" -eq 0 ] && ok || bad "check of the examples: exit $rc, expected 0"
+"$pftgw" check --format junit samples/lab > "$work/junit.xml"
+if xmllint --noout "$work/junit.xml" && [ "$(grep -c '<testcase ' "$work/junit.xml")" -ge 30 ]; then ok; else bad "junit output"; fi
+
+# Conversion: deterministic, one file per result named by its identifier.
+for to in hl7v2 fhir-json fhir-xml neutral-xml neutral-json; do
+  "$pftgw" convert --quiet --to "$to" --out "$work/a-$to" samples/examples; rc1=$?
+  "$pftgw" convert --quiet --to "$to" --out "$work/b-$to" samples/examples; rc2=$?
+  if [ "$rc1" -eq 0 ] && [ "$rc2" -eq 0 ] && diff -r "$work/a-$to" "$work/b-$to" > /dev/null; then ok; else bad "convert --to $to not deterministic or failed ($rc1/$rc2)"; fi
+  n=$(ls "$work/a-$to" | wc -l)
+  [ "$n" -eq 3 ] && ok || bad "convert --to $to wrote $n files for 3 examples"
+done
+[ -f "$work/a-hl7v2/KVH-SPX3-004001.hl7" ] && ok || bad "HL7 output not named by the result id"
+
+# The demo lab: blocked results are not written; unreadable ones give exit 3.
+"$pftgw" convert --to hl7v2 --out "$work/lab" samples/lab > "$work/summary.txt" 2> "$work/blocked.txt"; rc=$?
+[ "$rc" -eq 3 ] && ok || bad "convert of the lab: exit $rc, expected 3 (malformed samples)"
+[ ! -e "$work/lab/KVH-BOX2-3430.hl7" ] && ok || bad "a blocked result (bad-fev1-greater-than-fvc.json) was written"
+grep -q "blocked" "$work/blocked.txt" && ok || bad "blocked results not reported"
+# The revision-2 correction gets its own file beside revision 1.
+ls "$work/lab" | grep -q '\.r2\.hl7$' && ok || bad "no revision-2 file"
+
+# The quantity table's Markdown rendering is committed and current.
+"$pftgw" quantities --format markdown > "$work/QUANTITIES.md"
+if diff -u schemas/QUANTITIES.md "$work/QUANTITIES.md" > "$work/q.diff"; then ok; else bad "schemas/QUANTITIES.md is stale: run pftgw quantities --format markdown > schemas/QUANTITIES.md"; head -20 "$work/q.diff"; fi
+"$pftgw" quantities | cmp -s - schemas/quantities.csv && ok || bad "pftgw quantities differs from schemas/quantities.csv"
+
+echo "cli: $passed passed, $failed failed"
+[ "$failed" -eq 0 ]

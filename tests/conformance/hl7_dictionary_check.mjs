@@ -4,7 +4,7 @@
 // message structure ORU_R01 (segment order, groups, min/max), segment fields
 // (type, optionality R, repetition, length), data-type components (length).
 //
-// Usage: node hl7_dictionary_check.mjs HL7_DIR   (every *.hl7 in it)
+// Usage: node hl7_dictionary_check.mjs HL7_DIR...   (every *.hl7 in them, recursively)
 //
 // Checks per message:
 //   - segment order and cardinality against dictionaries['2.5.1'].messages.ORU_R01
@@ -27,7 +27,7 @@
 //     only L, H or N, never LL / HH / A / AA.
 // Last line: "N passed, N failed"; exit status 1 on any failure or no input.
 import { readdirSync, readFileSync } from 'node:fs';
-import { join } from 'node:path';
+import { join, relative } from 'node:path';
 import { dictionaries } from 'hl7v2-dictionary';
 
 const dict = dictionaries['2.5.1'];
@@ -210,28 +210,39 @@ function checkMessage(text) {
   return errors;
 }
 
+// Every *.hl7 under dir (the CLI puts large batches into subfolders).
+function hl7Files(dir) {
+  return readdirSync(dir, { recursive: true, withFileTypes: true })
+    .filter((e) => e.isFile() && e.name.endsWith('.hl7'))
+    .map((e) => join(e.path ?? e.parentPath, e.name))
+    .sort();
+}
+
 function main(argv) {
-  if (argv.length !== 1) {
-    console.error('usage: node hl7_dictionary_check.mjs HL7_DIR');
+  if (argv.length < 1) {
+    console.error('usage: node hl7_dictionary_check.mjs HL7_DIR...');
     console.log('0 passed, 1 failed');
     return 2;
   }
-  const dir = argv[0];
-  const files = readdirSync(dir).filter((f) => f.endsWith('.hl7')).sort();
   let passed = 0;
   let failed = 0;
-  for (const f of files) {
-    const errors = checkMessage(readFileSync(join(dir, f), 'utf8'));
-    if (errors.length) {
-      failed += 1;
-      for (const e of errors) console.log(`FAIL ${f}: ${e}`);
-    } else {
-      passed += 1;
-      console.log(`ok   ${f}`);
+  let seen = 0;
+  for (const dir of argv) {
+    for (const file of hl7Files(dir)) {
+      seen += 1;
+      const name = join(dir, relative(dir, file));
+      const errors = checkMessage(readFileSync(file, 'utf8'));
+      if (errors.length) {
+        failed += 1;
+        for (const e of errors) console.log(`FAIL ${name}: ${e}`);
+      } else {
+        passed += 1;
+        console.log(`ok   ${name}`);
+      }
     }
   }
-  if (!files.length) {
-    console.log(`no .hl7 files in ${dir}`);
+  if (!seen) {
+    console.log(`no .hl7 files in ${argv.join(' ')}`);
     failed += 1;
   }
   console.log(`${passed} passed, ${failed} failed`);

@@ -136,7 +136,7 @@ def check_message(name, text, neutral, codes, seen_ids):
                 errors.append(f"{where}: OBX-6 {unit!r} but neutral unit {value.get('unit')!r}")
             if component(obx, 6, 3) != "UCUM":
                 errors.append(f"{where}: OBX-6.3 {component(obx, 6, 3)!r}")
-        for comment in test.get("comments", []):
+        for comment in test.get("comments", test.get("comment", [])):
             if comment not in group["notes"]:
                 errors.append(f"test {t}: comment {comment!r} not decoded from any NTE")
 
@@ -162,7 +162,14 @@ def main(argv):
         return 2
     hl7_dir, json_dir = args
     codes = load_codes(quantities)
-    names = sorted(f[:-4] for f in os.listdir(hl7_dir) if f.endswith(".hl7"))
+    # Recursively: the CLI puts large batches into subfolders; the JSON of a
+    # result sits at the same relative path in NEUTRAL_JSON_DIR.
+    names = sorted(
+        os.path.relpath(os.path.join(root, f), hl7_dir)[:-4]
+        for root, _, files in os.walk(hl7_dir)
+        for f in files
+        if f.endswith(".hl7")
+    )
     passed = failed = 0
     seen_ids = {}
     for name in names:

@@ -436,7 +436,9 @@ void JsonReader::quantity(const Json& j, Quantity& q, const Path* parent, std::s
                           bool keyed) {
     const auto kind = j.find("kind");
     if (kind != j.end() && kind->is_string()) q.kind = kind->get<std::string>();
-    const Path p = keyed ? parent->keyed(field, q.kind) : parent->child(field);
+    const Path p = keyed ? parent->keyed(field, q.kind.empty() ? std::string_view("?")
+                                                               : std::string_view(q.kind))
+                         : parent->child(field);
     if (kind == j.end()) missing(p, "kind");
     std::string value_text;
     const std::string* unit_text = nullptr;

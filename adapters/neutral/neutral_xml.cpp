@@ -323,7 +323,9 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
     const char* condition_text = nullptr;
     // The kind names the path, so find it first.
     if (pugi::xml_attribute k = n.attribute("kind")) q.kind = k.value();
-    const Path p = keyed ? parent->keyed(field, q.kind) : parent->child(field);
+    const Path p = keyed ? parent->keyed(field, q.kind.empty() ? std::string_view("?")
+                                                               : std::string_view(q.kind))
+                         : parent->child(field);
     if (q.kind.empty()) missing(n, p.child("kind"), "a kind attribute");
     for (pugi::xml_attribute a : n.attributes()) {
         std::string_view an = a.name();

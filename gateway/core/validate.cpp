@@ -58,14 +58,26 @@ std::string fixed(double v, int decimals) {
     return r.ec == std::errc{} ? std::string(buf, r.ptr) : shortest(v);
 }
 
-// A value as seen: the kind's display decimals, unless they would hide digits
-// the value has (10.004 must not read as 10.00 next to a limit of 10).
+// Digits beyond the display decimals a seen value may show (gateway-derived
+// values carry every bit of a division; six decimals are enough to read).
+constexpr int kMaxExtraDecimals = 3;
+
+bool parse_number(const std::string& text, double& out) {
+    const auto r = std::from_chars(text.data(), text.data() + text.size(), out);
+    return r.ec == std::errc{} && r.ptr == text.data() + text.size();
+}
+
+// A value as seen: the kind's display decimals, or a few more when the value
+// has digits the display would hide (FEV1 3.406 must not read as 3.41, nor
+// 0.0025 L as 0.00 L).
 std::string seen_text(double v, int decimals) {
-    const std::string text = fixed(v, decimals);
-    double back = 0;
-    const auto r = std::from_chars(text.data(), text.data() + text.size(), back);
-    if (r.ec == std::errc{} && back == v) return text;
-    return shortest(v);
+    if (!std::isfinite(v)) return shortest(v);
+    for (int extra = 0; extra <= kMaxExtraDecimals; ++extra) {
+        const std::string text = fixed(v, decimals + extra);
+        double back = 0;
+        if (parse_number(text, back) && back == v) return text;
+    }
+    return fixed(v, decimals + kMaxExtraDecimals);
 }
 
 // A value the gateway computed for comparison: one decimal more than the
@@ -212,8 +224,14 @@ private:
     void plausible(const QuantityKind& kind, double v, const std::string& path) {
         if (v >= kind.plausible_min && v <= kind.plausible_max) return;  // NaN fails too
         const int d = kind.decimals_si;
+        // The text shown must itself be outside the range, or the message
+        // contradicts itself (10.0000001 shown as 10.000000).
+        std::string text = seen_text(v, d);
+        double back = 0;
+        if (parse_number(text, back) && back >= kind.plausible_min && back <= kind.plausible_max)
+            text = shortest(v);
         add("plausible.range", Severity::error, path,
-            kind.trade_name + " = " + with_unit(seen_text(v, d), kind.canonical_unit) +
+            kind.trade_name + " = " + with_unit(text, kind.canonical_unit) +
                 " is outside the plausible range " + seen_text(kind.plausible_min, d) + "-" +
                 with_unit(seen_text(kind.plausible_max, d), kind.canonical_unit),
             {{kind.key, shortest(v)}});

@@ -176,6 +176,16 @@ TEST(ValidatePlausible, ShowsDigitsTheDisplayWouldHide) {
     EXPECT_EQ(f[0].message, "FEV1 = 10.004 L is outside the plausible range 0.05-10.00 L");
 }
 
+TEST(ValidatePlausible, SmallAndComputedValuesStayReadable) {
+    auto r = example_normalized_result();
+    r.tests[kSpiro].find("FEV1")->reference[0].predicted = 0.0025;  // L given as if m3
+    set_value(r, kSpiro, "FEV1_FVC", 3.12 / 2.95);                  // a ratio above 1
+    const auto f = of_rule(check(r), "plausible.range");
+    ASSERT_EQ(f.size(), 2u);
+    EXPECT_EQ(f[0].message, "FEV1 pred = 0.0025 L is outside the plausible range 0.05-10.00 L");
+    EXPECT_EQ(f[1].message, "FEV1/FVC = 1.057627 is outside the plausible range 0.150-1.000");
+}
+
 TEST(ValidatePlausible, ReferenceValuesUseTheirVariantRow) {
     auto r = example_normalized_result();
     r.tests[kDiffusion].find("DLCO")->reference[0].uln = 25;  // DLCO.uln 0.33-20.1

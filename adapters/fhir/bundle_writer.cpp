@@ -70,6 +70,8 @@ constexpr std::string_view kZBandText =
 // Shortest round-trip text when a unit is neither the kind's SI nor its
 // traditional unit (the result was not rendered): no display decimals apply.
 constexpr int kShortestDecimals = -1;
+// One Bundle of the 25-quantity example is about 52 kB of JSON, 64 kB of XML.
+constexpr std::size_t kReserveBytes = 64 * 1024;
 
 // ---- small text helpers ----------------------------------------------------
 
@@ -107,19 +109,19 @@ DecimalText format_decimal(double value, int decimals) {
 // ":/@" kept), so identifiers with spaces or '&' still make one search.
 void append_query_encoded(std::string& out, std::string_view text) {
     constexpr char kHex[] = "0123456789ABCDEF";
-    for (char ch : text) {
-        const auto c = static_cast<unsigned char>(ch);
+    std::size_t run_start = 0;
+    for (std::size_t i = 0; i < text.size(); ++i) {
+        const auto c = static_cast<unsigned char>(text[i]);
         const bool keep = (c >= 'A' && c <= 'Z') || (c >= 'a' && c <= 'z') ||
                           (c >= '0' && c <= '9') || c == '-' || c == '.' || c == '_' || c == '~' ||
                           c == ':' || c == '/' || c == '@';
-        if (keep) {
-            out += ch;
-        } else {
-            out += '%';
-            out += kHex[c >> 4];
-            out += kHex[c & 0x0F];
-        }
+        if (keep) continue;
+        out.append(text.data() + run_start, i - run_start);
+        run_start = i + 1;
+        const char esc[] = {'%', kHex[c >> 4], kHex[c & 0x0F]};
+        out.append(esc, sizeof esc);
     }
+    out.append(text.data() + run_start, text.size() - run_start);
 }
 
 std::string identifier_query(std::string_view system, std::string_view value) {
@@ -144,14 +146,16 @@ std::string urn_uuid(std::string_view system, std::string_view value) {
     h[6] = static_cast<std::uint8_t>((h[6] & 0x0F) | kVersion8);
     h[8] = static_cast<std::uint8_t>((h[8] & 0x3F) | kVariantRfc);
     constexpr char kHex[] = "0123456789abcdef";
-    std::string out = "urn:uuid:";
-    out.reserve(9 + 36);
+    constexpr std::string_view kPrefix = "urn:uuid:";
+    char text[kPrefix.size() + 36];
+    std::size_t n = 0;
+    for (char c : kPrefix) text[n++] = c;
     for (std::size_t i = 0; i < 16; ++i) {
-        if (i == 4 || i == 6 || i == 8 || i == 10) out += '-';
-        out += kHex[h[i] >> 4];
-        out += kHex[h[i] & 0x0F];
+        if (i == 4 || i == 6 || i == 8 || i == 10) text[n++] = '-';
+        text[n++] = kHex[h[i] >> 4];
+        text[n++] = kHex[h[i] & 0x0F];
     }
-    return out;
+    return std::string(text, n);
 }
 
 // ---- the plan: every entry's identifier and fullUrl, before writing ---------
@@ -160,6 +164,7 @@ struct Part {
     std::string system;
     std::string value;     // identifier value
     std::string full_url;  // urn:uuid:...
+    std::string query;     // identifier=<system>|<value>, URL-encoded
 };
 
 Part make_part(std::string_view system, std::string value) {
@@ -167,6 +172,7 @@ Part make_part(std::string_view system, std::string value) {
     p.system = std::string(system);
     p.value = std::move(value);
     p.full_url = urn_uuid(p.system, p.value);
+    p.query = identifier_query(p.system, p.value);
     return p;
 }
 
@@ -194,6 +200,7 @@ struct ObservationPlan {
 struct TestPlan {
     const Test* test = nullptr;
     std::size_t test_index = 0;
+    std::string effective;  // the test's time, else the session's; may be empty
     Part panel;
     std::vector<ObservationPlan> observations;
 };
@@ -205,6 +212,7 @@ struct Plan {
     Part bundle;
     Part patient;
     std::vector<Identifier> patient_identifiers;
+    std::string report_effective;
     bool has_device = false;
     Part device;
     std::vector<TestPlan> tests;
@@ -270,6 +278,11 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
         TestPlan tp;
         tp.test = &test;
         tp.test_index = ti;
+        if (test.time)
+            tp.effective = to_iso(*test.time);
+        else if (result.session_time)
+            tp.effective = to_iso(*result.session_time);
+        if (plan.report_effective.empty()) plan.report_effective = tp.effective;
         tp.panel = make_part(
             sys, part_identifier(plan.result_id, "panel-" + std::string(to_string(test.type))));
         for (const Quantity& q : test.values) {
@@ -317,6 +330,7 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
         plan.tests.push_back(std::move(tp));
     }
     plan.report = make_part(sys, part_identifier(plan.result_id, "report"));
+    if (result.session_time) plan.report_effective = to_iso(*result.session_time);
     return plan;
 }
 
@@ -362,7 +376,7 @@ private:
     void end_entry(const Part& part, std::string_view type, bool may_update) {
         e_.end_resource();
         e_.begin_object("request");
-        const std::string query = identifier_query(part.system, part.value);
+        const std::string& query = part.query;
         if (may_update && plan_.update) {
             e_.string("method", "PUT");
             std::string url(type);
@@ -539,10 +553,7 @@ private:
         codeable_concept("code", kLoincUri, kPulmonaryFunctionPanelLoinc,
                          "Pulmonary function panel", "Pulmonary function tests");
         reference_object("subject", plan_.patient.full_url);
-        const Timestamp* t = result_.session_time ? &*result_.session_time : nullptr;
-        for (const auto& test : result_.tests)
-            if (t == nullptr && test.time) t = &*test.time;
-        if (t != nullptr) e_.string("effectiveDateTime", to_iso(*t));
+        e_.string("effectiveDateTime", plan_.report_effective);
         if (!plan_.tests.empty()) {
             e_.begin_array("result");
             for (const auto& tp : plan_.tests) reference_item(tp.panel.full_url);
@@ -565,10 +576,7 @@ private:
 
     void references_and_time(const TestPlan& tp) {
         reference_object("subject", plan_.patient.full_url);
-        const Timestamp* t = tp.test->time
-                                 ? &*tp.test->time
-                                 : (result_.session_time ? &*result_.session_time : nullptr);
-        if (t != nullptr) e_.string("effectiveDateTime", to_iso(*t));
+        e_.string("effectiveDateTime", tp.effective);
     }
 
     void quantity_code(const QuantityKind* kind, std::string_view key) {
@@ -858,6 +866,7 @@ private:
 void write_bundle_json(const NeutralResult& result, const BundleOptions& options,
                        const QuantityTable& table, std::string& out) {
     const Plan plan = make_plan(result, options, table);
+    out.reserve(out.size() + kReserveBytes);
     JsonEmitter emitter(out);
     BundleWalk<JsonEmitter>(emitter, result, options, plan).write();
 }
@@ -865,6 +874,7 @@ void write_bundle_json(const NeutralResult& result, const BundleOptions& options
 void write_bundle_xml(const NeutralResult& result, const BundleOptions& options,
                       const QuantityTable& table, std::string& out) {
     const Plan plan = make_plan(result, options, table);
+    out.reserve(out.size() + kReserveBytes);
     XmlEmitter emitter(out);
     BundleWalk<XmlEmitter>(emitter, result, options, plan).write();
 }

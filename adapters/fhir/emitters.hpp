@@ -3,6 +3,7 @@
 // needs and JSON does not mind. Internal to adapters/fhir.
 #pragma once
 
+#include <cstring>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -44,8 +45,7 @@ public:
     // A primitive; empty text is never written (FHIR has no empty strings).
     void string(std::string_view name, std::string_view text) {
         if (text.empty()) return;
-        key(name);
-        out_ += '"';
+        key(name, '"');
         append_json_escaped(out_, text);
         out_ += '"';
         comma_ = true;
@@ -58,22 +58,22 @@ public:
     }
 
     void begin_object(std::string_view name) {
-        key(name);
-        out_ += '{';
+        key(name, '{');
         comma_ = false;
     }
     void end_object() { close('}'); }
 
     void begin_array(std::string_view name) {
-        key(name);
-        out_ += '[';
+        key(name, '[');
         comma_ = false;
     }
     void end_array() { close(']'); }
 
     void begin_item() {
-        separate();
-        out_ += '{';
+        if (comma_)
+            out_.append(",{", 2);
+        else
+            out_ += '{';
         comma_ = false;
     }
     void end_item() { close('}'); }
@@ -95,12 +95,29 @@ private:
     void separate() {
         if (comma_) out_ += ',';
     }
-    void key(std::string_view name) {
-        separate();
-        out_ += '"';
-        out_ += name;
-        out_ += "\":";
+    // `,"name":` and an optional opening character, in one append: single-character
+    // appends dominated the profile.
+    void key(std::string_view name, char open = 0) {
+        char buf[kMaxKeyBytes];
+        if (name.size() + 5 > sizeof buf) {
+            separate();
+            out_ += '"';
+            out_ += name;
+            out_ += "\":";
+            if (open != 0) out_ += open;
+            return;
+        }
+        std::size_t n = 0;
+        if (comma_) buf[n++] = ',';
+        buf[n++] = '"';
+        std::memcpy(buf + n, name.data(), name.size());
+        n += name.size();
+        buf[n++] = '"';
+        buf[n++] = ':';
+        if (open != 0) buf[n++] = open;
+        out_.append(buf, n);
     }
+    static constexpr std::size_t kMaxKeyBytes = 64;
     void close(char c) {
         out_ += c;
         comma_ = true;

@@ -5,8 +5,8 @@
 // replaces it there. Without the variable the test still parses every variant.
 #include <gtest/gtest.h>
 
-#include <chrono>
 #include <cstdlib>
+#include <ctime>
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <pugixml.hpp>
@@ -69,9 +69,16 @@ TEST(FhirDump, EveryVariantParsesAndIsWrittenWhenAsked) {
     }
 }
 
+double thread_cpu_seconds() {
+    timespec t{};
+    clock_gettime(CLOCK_THREAD_CPUTIME_ID, &t);
+    return static_cast<double>(t.tv_sec) + static_cast<double>(t.tv_nsec) * 1e-9;
+}
+
 // Throughput smoke check of the streamed JSON (the project's target is
 // >= 10,000 results/s per core for 25 quantities; tests/bench measures it
-// properly). Loose bound here, so a shared, loaded machine does not fail it.
+// properly). Thread CPU time, not wall time: the target is per core, and other
+// processes on a shared machine must not count. Loose bound all the same.
 TEST(FhirDump, JsonWriterIsFastEnoughForTheTarget) {
     const auto result = testing::example_normalized_result();
     const BundleOptions options;
@@ -79,14 +86,13 @@ TEST(FhirDump, JsonWriterIsFastEnoughForTheTarget) {
     constexpr double kMinimumPerSecond = 2500;  // a quarter of the target
     std::string out;
     std::size_t bytes = 0;
-    const auto start = std::chrono::steady_clock::now();
+    const double start = thread_cpu_seconds();
     for (int i = 0; i < kRounds; ++i) {
         out.clear();
         write_bundle_json(result, options, quantity_table(), out);
         bytes += out.size();
     }
-    const std::chrono::duration<double> took = std::chrono::steady_clock::now() - start;
-    const double per_second = kRounds / took.count();
+    const double per_second = kRounds / (thread_cpu_seconds() - start);
     std::printf("fhir json: %.0f results/s, %zu bytes each\n", per_second, bytes / kRounds);
     EXPECT_GT(per_second, kMinimumPerSecond);
 }

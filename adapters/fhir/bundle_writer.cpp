@@ -7,7 +7,7 @@
 // in the element order of the R4 StructureDefinitions, so the JSON and the XML
 // carry the same content in the same order.
 //
-// Choices (see also the report in DEVELOPERS.md's FHIR notes):
+// Choices:
 // - Predicted, percent predicted and z-score are Observations of their own,
 //   coded by the quantity table's variant rows, with derivedFrom -> the measured
 //   Observation. FHIR R4 (Observation, "component" notes; interop-facts.md)

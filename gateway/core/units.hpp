@@ -19,7 +19,11 @@ inline constexpr double kKpaPerCmH2O = 0.0980665;  // UCUM: 1 cm[H2O] = 98.0665 
 inline constexpr double kHbGdlPerMmolL =
     1.611;  // from memory (lung-function-facts.md, flag M): monomer Hb
 
-// True when the gateway knows the UCUM unit string.
+// True when the gateway knows the UCUM unit string. Case-sensitive and exact:
+// only the spellings of units.cpp's table (L, mL, dL; L/s, L/min, mL/s;
+// mmol/min/kPa, mL/min/mm[Hg] and both per L; g/dL, g/L, mmol/L; kPa, mm[Hg],
+// cm[H2O], hPa, mbar; cm, m, [in_i]; kg, g, [lb_av]; Cel, [degF], K; s, ms,
+// min; 1, %; {z-score}). "mL/min/mmHg" is not UCUM and is not known.
 bool is_known_unit(std::string_view ucum);
 
 // Units of the same dimension (volume, flow, ...) convert into each other.
@@ -29,7 +33,9 @@ bool same_dimension(std::string_view from_ucum, std::string_view to_ucum);
 // temperatures). Errors: "unit.unknown", "unit.incompatible".
 Result<double> convert_unit(double value, std::string_view from_ucum, std::string_view to_ucum);
 
-// The multiplicative factor from one unit to another; an error for temperatures.
+// The multiplicative factor from one unit to another. Errors: "unit.unknown",
+// "unit.incompatible", and "unit.affine" between two different temperature
+// units (a unit to itself is 1).
 Result<double> unit_factor(std::string_view from_ucum, std::string_view to_ucum);
 
 }  // namespace pftgw

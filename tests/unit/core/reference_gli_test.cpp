@@ -103,8 +103,9 @@ TEST(ReferenceGli, Gli2021TlcMatchesGliCalculator) {
 TEST(ReferenceGli, GliGlobal2022MatchesPublishedVignette) {
     // Source: the pft R package "Getting started" vignette, as quoted in
     // schemas/reference/gli/README.md ("Verification"): GLI Global FEV1
-    // 3.87 / 2.94 / 4.75 and FVC 4.81 / 3.68 L, 2 decimals. The subject is the
-    // vignette's patient (its source: sex M, age 45, height 178).
+    // 3.87 / 2.94 / 4.75 and FVC 4.81 / 3.68 L, 2 decimals. The README does not
+    // name the subject; the vignette's source (vignettes/pft.Rmd) has one
+    // patient, sex M, age 45, height 178 cm, taken here as the subject.
     const auto s = subject(SexAtBirth::male, 45, 178);
     const auto fev1 = must(EquationSet::gli_global_2022, GliQuantity::fev1, s);
     EXPECT_ROUNDS_TO(fev1.predicted, 3.87, 2);

@@ -537,6 +537,8 @@ void JsonReader::reference(const Json& j, ReferenceValues& r, const Path& p) {
             str(v, p.child(k), k, r.equation_version);
         else if (k == "origin")
             enumerated(v, p.child(k), k, r.origin, parse_origin, "an origin (device, gateway)");
+        else if (k == "unit")
+            str(v, p.child(k), k, r.unit);
         else if (k == "predicted")
             number(v, p.child(k), k, r.predicted);
         else if (k == "lln")
@@ -589,6 +591,8 @@ void JsonReader::test(const Json& j, Test& t, const Path& p) {
                             tr.operator_accepted = tv.get<bool>();
                         else
                             wrong_type(tv, tp.child(tk), tk, "a boolean");
+                    } else if (tk == "tracer") {
+                        str(tv, tp.child(tk), tk, tr.tracer);
                     } else if (tk == "values") {
                         values(tv, tr.values, tp);
                     } else {
@@ -784,6 +788,7 @@ void JsonWriter::quantity(const Quantity& q) {
             member("equationSet", r.equation_set);
             member_if("equationVersion", r.equation_version);
             member("origin", to_string(r.origin));
+            member_if("unit", r.unit);
             member_num_if("predicted", r.predicted);
             member_num_if("lln", r.lln);
             member_num_if("uln", r.uln);
@@ -934,6 +939,7 @@ void JsonWriter::write(const NeutralResult& r) {
                         key("operatorAccepted");
                         out_ += *tr.operator_accepted ? "true" : "false";
                     }
+                    member_if("tracer", tr.tracer);
                     if (!tr.values.empty()) {
                         key("values");
                         open('[');

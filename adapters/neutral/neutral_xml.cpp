@@ -434,6 +434,8 @@ void XmlReader::read_reference(pugi::xml_node n, ReferenceValues& r, const Path&
         else if (an == "origin")
             enumerated(n, p.child("origin"), a.value(), r.origin, parse_origin,
                        "an origin (device, gateway)");
+        else if (an == "unit")
+            r.unit = a.value();
         else if (an == "predicted")
             number(n, p.child("predicted"), a.value(), r.predicted);
         else if (an == "lln")
@@ -502,6 +504,8 @@ void XmlReader::read_trial(pugi::xml_node n, Trial& t, const Path& p) {
                 t.operator_accepted = false;
             else
                 invalid(n, p.child("operatorAccepted"), v, "a boolean (true, false)");
+        } else if (an == "tracer") {
+            t.tracer = a.value();
         } else {
             unknown_attribute(n, a, p);
         }
@@ -710,6 +714,7 @@ void XmlWriter::quantity(int depth, std::string_view tag, const Quantity& q) {
         attr("equationSet", r.equation_set);
         attr_if("equationVersion", r.equation_version);
         attr("origin", to_string(r.origin));
+        attr_if("unit", r.unit);
         attr_num_if("predicted", r.predicted);
         attr_num_if("lln", r.lln);
         attr_num_if("uln", r.uln);
@@ -819,6 +824,7 @@ void XmlWriter::write(const NeutralResult& r) {
             if (tr.time) attr("time", to_iso(*tr.time));
             if (tr.operator_accepted)
                 attr("operatorAccepted", *tr.operator_accepted ? "true" : "false");
+            attr_if("tracer", tr.tracer);
             out_ += ">\n";
             for (const Quantity& q : tr.values) quantity(3, "value", q);
             out_ += "    </trial>\n";

@@ -46,11 +46,14 @@ struct Derivation {
 };
 
 // Predicted / LLN / ULN / z / percent predicted from one named equation set.
-// predicted, lln and uln are in the quantity's own unit and condition.
+// predicted, lln and uln are in `unit` at the kind's canonical condition:
+// reference equations are defined at BTPS (volumes, flows) or STPD (DLCO),
+// so a device that reports FEV1 at ATPS still sends its predicted FEV1 at BTPS.
 struct ReferenceValues {
     std::string equation_set;      // "GLI-2017", "GLI Global 2022", or a device's own label
     std::string equation_version;  // e.g. "2020 correction"; may be empty
     Origin origin = Origin::device;
+    std::string unit;  // UCUM unit of predicted/lln/uln; empty: the quantity's own unit as sent
     std::optional<double> predicted;
     std::optional<double> lln;
     std::optional<double> uln;
@@ -179,7 +182,7 @@ std::string_view to_string(ResultStatus s);  // "final", "preliminary", "correct
 std::optional<ResultStatus> parse_result_status(std::string_view text);
 
 struct NeutralResult {
-    std::string schema_version = "1.0";
+    std::string schema_version = "1.1";
     std::string id;    // stable identifier (identity.hpp); derived when empty
     int revision = 1;  // a correction from the device is the next revision
     ResultStatus status = ResultStatus::final;

@@ -77,12 +77,26 @@ UnitChange unit_change(const std::string& from, const std::string& to) {
     return {at, at(1.0) - at(0.0)};
 }
 
-void apply_to_reference(Quantity& q, const std::function<double(double)>& f) {
+void apply_to_reference(ReferenceValues& r, const std::function<double(double)>& f) {
+    // z-score and percent predicted are unitless: unchanged.
+    if (r.predicted) r.predicted = f(*r.predicted);
+    if (r.lln) r.lln = f(*r.lln);
+    if (r.uln) r.uln = f(*r.uln);
+}
+
+bool has_reference_numbers(const ReferenceValues& r) {
+    return r.predicted || r.lln || r.uln;
+}
+
+// Reference values change unit only, never gas condition: the equations are
+// defined at the kind's canonical condition (see ReferenceValues).
+void render_reference(Quantity& q, const std::string& target) {
     for (auto& r : q.reference) {
-        // z-score and percent predicted are unitless: unchanged.
-        if (r.predicted) r.predicted = f(*r.predicted);
-        if (r.lln) r.lln = f(*r.lln);
-        if (r.uln) r.uln = f(*r.uln);
+        if (!has_reference_numbers(r) || r.unit.empty() || r.unit == target ||
+            !same_dimension(r.unit, target))
+            continue;
+        apply_to_reference(r, unit_change(r.unit, target).apply);
+        r.unit = target;
     }
 }
 
@@ -167,6 +181,8 @@ public:
             return;
         }
 
+        normalize_reference(q, *k, path);
+
         // The condition.
         const GasCondition target = k->canonical_condition;
         GasCondition from = q.condition;
@@ -238,13 +254,40 @@ public:
             if (uses_vapour_equation(from, target)) d.water_vapour_equation = kWaterVapourEquation;
         }
         if (q.value) q.value = convert(*q.value);
-        apply_to_reference(q, convert);
         q.unit = k->canonical_unit;
         q.condition = target;
         q.derivation = std::move(d);
     }
 
     std::vector<Finding>& findings() { return findings_; }
+
+    // Each reference set to the canonical unit; a set that names no unit is
+    // in the quantity's unit as sent (called before the value is converted).
+    void normalize_reference(Quantity& q, const QuantityKind& k, const std::string& path) {
+        for (std::size_t i = 0; i < q.reference.size(); ++i) {
+            ReferenceValues& r = q.reference[i];
+            if (!has_reference_numbers(r)) continue;
+            const std::string from = r.unit.empty() ? q.unit : r.unit;
+            const std::string rpath = path + ".reference[" + std::to_string(i) + "].unit";
+            if (!is_known_unit(from)) {
+                report(
+                    "unit.unknown", rpath,
+                    q.kind + " reference unit '" + from + "' is not a UCUM unit the gateway knows",
+                    {{"unit", from}});
+                continue;
+            }
+            if (!k.accepts(from) || !same_dimension(from, k.canonical_unit)) {
+                report("unit.mismatch", rpath,
+                       q.kind + " reference values in '" + from +
+                           "' do not fit the kind; expected one of " + joined_units(k),
+                       {{"unit", from}});
+                continue;
+            }
+            if (from != k.canonical_unit)
+                apply_to_reference(r, unit_change(from, k.canonical_unit).apply);
+            r.unit = k.canonical_unit;
+        }
+    }
 
 private:
     // What was sent is kept: a reader that filled nothing gets the value as it
@@ -317,14 +360,15 @@ NeutralResult render_units(const NeutralResult& normalized, UnitSystem system,
         const QuantityKind* k = table.find(q.kind);
         if (!k) return;
         const std::string& target = k->unit_for(system);
+        if (target.empty()) return;
+        render_reference(q, target);
         // A unit normalization could not settle stays as it is (it has a finding).
-        if (target.empty() || q.unit == target || !same_dimension(q.unit, target)) return;
+        if (q.unit == target || !same_dimension(q.unit, target)) return;
         const UnitChange uc = unit_change(q.unit, target);
         Derivation d = q.derivation.value_or(Derivation{});
         d.factor *= uc.slope;
         append_step(d.steps, q.unit, target);
         if (q.value) q.value = uc.apply(*q.value);
-        apply_to_reference(q, uc.apply);
         q.unit = target;
         q.derivation = std::move(d);
     };

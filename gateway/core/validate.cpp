@@ -241,8 +241,8 @@ private:
         const QuantityKind* kind = table_.find(q.kind);
         // Unknown kinds and non-canonical units were reported by the reader or
         // by normalize(); a range in another unit would say nothing.
-        if (kind == nullptr || q.unit != kind->canonical_unit) return;
-        if (q.value) plausible(*kind, *q.value, path);
+        if (kind == nullptr) return;
+        if (q.value && q.unit == kind->canonical_unit) plausible(*kind, *q.value, path);
         for (std::size_t k = 0; k < q.reference.size(); ++k) {
             const auto& ref = q.reference[k];
             const std::string ref_path = path + ".reference[" + std::to_string(k) + "]";
@@ -252,7 +252,8 @@ private:
                 if (!value->has_value()) continue;
                 const QuantityKind* vk = table_.variant_of(kind->base, variant);
                 if (vk == nullptr) vk = kind;
-                if (vk->canonical_unit != q.unit) continue;
+                // A reference set that names no unit is in the quantity's unit.
+                if (vk->canonical_unit != (ref.unit.empty() ? q.unit : ref.unit)) continue;
                 plausible(*vk, **value, ref_path + "." + variant);
             }
         }

@@ -86,6 +86,10 @@ def q(kind, value, unit, condition=None, ref=None, trials=None, code=None, syste
         src["codeSystem"] = system
         out["source"] = src
     if ref:
+        # Devices send predicted values in litres at BTPS even when they report
+        # the measured volume in mL at ATPS: the reference names its own unit.
+        if unit == "mL" and ref.get("predicted", 0) < 50:
+            ref = dict(ref, unit="L")
         out["reference"] = [ref]
     if trials:
         out["trials"] = trials
@@ -154,7 +158,7 @@ def quantity_xml(tag, qd, ind):
     if "source" in qd:
         kids.append(f"<source{attrs(qd['source'], [('value','value'),('unit','unit'),('condition','condition'),('code','code'),('codeSystem','codeSystem')])}/>")
     for r in qd.get("reference", []):
-        kids.append(f"<reference{attrs(r, [('equationSet','equationSet'),('equationVersion','equationVersion'),('origin','origin'),('predicted','predicted'),('lln','lln'),('uln','uln'),('z','z'),('percentPredicted','percentPredicted')])}/>")
+        kids.append(f"<reference{attrs(r, [('equationSet','equationSet'),('equationVersion','equationVersion'),('origin','origin'),('unit','unit'),('predicted','predicted'),('lln','lln'),('uln','uln'),('z','z'),('percentPredicted','percentPredicted')])}/>")
     for t in qd.get("trials", []):
         kids.append(f'<trialRef number="{t}"/>')
     for k in qd.get("derivedFrom", []):

@@ -464,6 +464,7 @@ Result<ReferenceValues> compute_reference_values(EquationSet set, std::string_vi
     if (set == EquationSet::gli_2012 && subject.group)
         r.equation_version += ", group " + std::string(to_string(*subject.group));
     r.origin = Origin::gateway;
+    r.unit = std::string(unit);
     const double scale = binding->scale;
     r.predicted = estimate->predicted * scale;
     r.lln = estimate->lln * scale;

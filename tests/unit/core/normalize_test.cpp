@@ -209,18 +209,43 @@ TEST(Normalize, TraditionalDlcoAndItsReferenceBecomeSi) {
     EXPECT_EQ(*ref.percent_predicted, 93.0);  // unitless: unchanged
 }
 
-TEST(Normalize, ReferenceValuesFollowTheGasConversion) {
+TEST(Normalize, ReferenceValuesChangeUnitButNeverGasCondition) {
+    // Reference equations are defined at BTPS (GLI: volumes in L BTPS, shared/data/gli
+    // README), so a predicted FEV1 is never taken through the ATPS->BTPS factor.
     auto fev1 = sent("FEV1", 2610, "mL", GasCondition::atps);
     fev1.reference.push_back(testing::ref("GLI Global 2022", 2800, 2100, 3500, -0.52, 93));
     NeutralResult r = with_test(TestType::spirometry, {fev1});
     set_ambient(r, 22, "Cel", 100.8, "kPa");
     ASSERT_FALSE(has_errors(normalize(r, table())));
     const Quantity& out = r.tests[0].values[0];
-    const double f = out.derivation->factor;
-    EXPECT_NEAR(*out.reference[0].predicted, 2800 * f, 1e-12);
-    EXPECT_NEAR(*out.reference[0].lln, 2100 * f, 1e-12);
-    EXPECT_NEAR(*out.reference[0].uln, 3500 * f, 1e-12);
+    EXPECT_GT(out.derivation->factor, 0.001 * 1.05);         // the value got the BTPS factor too
+    EXPECT_NEAR(*out.reference[0].predicted, 2.800, 1e-12);  // mL -> L only
+    EXPECT_NEAR(*out.reference[0].lln, 2.100, 1e-12);
+    EXPECT_NEAR(*out.reference[0].uln, 3.500, 1e-12);
+    EXPECT_EQ(out.reference[0].unit, "L");
     EXPECT_EQ(*out.reference[0].z_score, -0.52);
+}
+
+TEST(Normalize, ReferenceValuesInTheirOwnUnit) {
+    // A device reporting FEV1 in mL at ATPS and its predicted values in L (at BTPS).
+    auto fev1 = sent("FEV1", 2610, "mL", GasCondition::atps);
+    auto ref = testing::ref("GLI-2012", 2.8, 2.1, 3.5, -0.52, 93);
+    ref.unit = "L";
+    fev1.reference.push_back(ref);
+    NeutralResult r = with_test(TestType::spirometry, {fev1});
+    set_ambient(r, 22, "Cel", 100.8, "kPa");
+    ASSERT_FALSE(has_errors(normalize(r, table())));
+    EXPECT_DOUBLE_EQ(*r.tests[0].values[0].reference[0].predicted, 2.8);
+    // Rendering moves the reference unit with the value's.
+    auto fev1_ml = sent("DLCO", 25.0, "mL/min/mm[Hg]", GasCondition::stpd);
+    auto dref = testing::ref("GLI-2017", 29.87, 23.4, 38.3, -1.0, 84);
+    fev1_ml.reference.push_back(dref);
+    NeutralResult d = with_test(TestType::diffusing_capacity, {fev1_ml});
+    ASSERT_FALSE(has_errors(normalize(d, table())));
+    EXPECT_NEAR(*d.tests[0].values[0].reference[0].predicted, 10.0, 1e-12);  // / 2.987
+    const NeutralResult trad = render_units(d, UnitSystem::traditional, table());
+    EXPECT_NEAR(*trad.tests[0].values[0].reference[0].predicted, 29.87, 1e-9);
+    EXPECT_EQ(trad.tests[0].values[0].reference[0].unit, "mL/min/mm[Hg]");
 }
 
 TEST(Normalize, HemoglobinInGramsPerLitre) {

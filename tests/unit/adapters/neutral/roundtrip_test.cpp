@@ -138,7 +138,7 @@ TEST(NeutralRoundTrip, ShortestNumberText) {
     q.value = 0.1;
     q.unit = "mmol/min/kPa";
     q.source = SourceForm{"0.1", "mmol/min/kPa", "", "", ""};
-    q.reference.push_back({"GLI-2017", "", Origin::device, 2.987, std::nullopt, std::nullopt,
+    q.reference.push_back({"GLI-2017", "", Origin::device, "", 2.987, std::nullopt, std::nullopt,
                            std::nullopt, std::nullopt});
     t.values.push_back(q);
     r.tests.push_back(t);

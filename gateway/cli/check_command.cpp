@@ -8,6 +8,7 @@
 
 #include "gateway/cli/commands.hpp"
 #include "gateway/cli/pipeline.hpp"
+#include "gateway/cli/policy_options.hpp"
 #include "gateway/cli/report.hpp"
 
 namespace pftgw::cli {
@@ -17,6 +18,7 @@ struct CheckOptions {
     std::string format = "text";
     std::string target = "all";
     std::vector<std::string> inputs;
+    PolicyOptions policy;
 };
 
 std::size_t count_severity(const std::vector<Finding>& fs, Severity s) {
@@ -36,14 +38,17 @@ nlohmann::json finding_json(const Finding& f) {
 
 void print_text(const std::vector<Processed>& all, const RunCounts& c) {
     for (const auto& p : all) {
-        const char* outcome = !p.result            ? "unreadable"
-                              : p.blocked()        ? "error"
-                              : p.findings.empty() ? "ok"
-                                                   : "warnings";
+        const char* outcome = !p.result                  ? "unreadable"
+                              : p.blocked()              ? "error"
+                              : has_warnings(p.findings) ? "warnings"
+                                                         : "ok";
         print_findings_text(stdout, p, outcome);
     }
     fmt::print("\nchecked {}  without errors {}  with errors {}  unreadable {}\n", c.read,
                c.read - c.blocked - c.unreadable, c.blocked, c.unreadable);
+    fmt::print(
+        "severities: error blocks delivery; warning travels with the result; info is shown here "
+        "only\n");
     fmt::print("{}\n", kCaution);
 }
 
@@ -112,7 +117,9 @@ void print_junit(const std::vector<Processed>& all, const RunCounts& c) {
 }
 
 int run_check(const CheckOptions& o) {
-    std::vector<Target> targets;
+    ProcessOptions process_options;
+    if (!parse_policy(o.policy, process_options.reference, "check")) return kExitUsage;
+    std::vector<Target>& targets = process_options.targets;
     if (o.target == "all")
         targets = {Target::neutral, Target::hl7v2, Target::fhir};
     else if (o.target == "neutral")
@@ -150,7 +157,7 @@ int run_check(const CheckOptions& o) {
         const bool ok = for_each_document(
             file,
             [&](InputItem&& item) {
-                Processed p = process(std::move(item), targets);
+                Processed p = process(std::move(item), process_options);
                 ++counts.read;
                 if (!p.result)
                     ++counts.unreadable;
@@ -179,6 +186,7 @@ void add_check_command(CLI::App& app, CommandContext& ctx) {
     sub->add_option("--format", opts->format, "Output: text, json or junit")->capture_default_str();
     sub->add_option("--target", opts->target, "Completeness rules of: all, neutral, hl7v2 or fhir")
         ->capture_default_str();
+    add_policy_options(*sub, opts->policy);
     sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
     sub->callback([opts, &ctx] { ctx.exit_code = run_check(*opts); });
 }

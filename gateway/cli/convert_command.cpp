@@ -8,6 +8,7 @@
 #include "gateway/cli/commands.hpp"
 #include "gateway/cli/formats.hpp"
 #include "gateway/cli/pipeline.hpp"
+#include "gateway/cli/policy_options.hpp"
 #include "gateway/cli/report.hpp"
 #include "gateway/core/identity.hpp"
 #include "gateway/core/normalize.hpp"
@@ -27,6 +28,7 @@ struct ConvertOptions {
     std::string out_dir;
     std::vector<std::string> inputs;
     WriterSettings writer;
+    PolicyOptions policy;
     bool quiet = false;
 };
 
@@ -81,6 +83,9 @@ int run_convert(const ConvertOptions& o) {
     }
     WriterSettings settings = o.writer;
     settings.units = *units;
+    ProcessOptions process_options;
+    process_options.targets = {format->target};
+    if (!parse_policy(o.policy, process_options.reference, "convert")) return kExitUsage;
 
     std::vector<std::string> missing;
     const auto files = find_inputs(o.inputs, missing);
@@ -108,7 +113,7 @@ int run_convert(const ConvertOptions& o) {
         const bool ok = for_each_document(
             file,
             [&](InputItem&& item) {
-                Processed p = process(std::move(item), {format->target});
+                Processed p = process(std::move(item), process_options);
                 ++counts.read;
                 for (const auto& f : p.findings) ++rule_counts[f.rule];
                 if (!p.result) {
@@ -160,6 +165,7 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
     sub->add_option("--receiving-application", opts->writer.receiving_application, "HL7 MSH-5");
     sub->add_option("--receiving-facility", opts->writer.receiving_facility, "HL7 MSH-6");
     sub->add_flag("--quiet", opts->quiet, "Print no summary");
+    add_policy_options(*sub, opts->policy);
     sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
     sub->callback([opts, &ctx] { ctx.exit_code = run_convert(*opts); });
 }

@@ -105,7 +105,7 @@ std::size_t count_documents(const fs::path& file) {
     return n;
 }
 
-Processed process(InputItem&& item, const std::vector<Target>& targets) {
+Processed process(InputItem&& item, const ProcessOptions& options) {
     Processed out;
     out.source = std::move(item.source);
     auto read = neutral::read_any(item.bytes, out.source);
@@ -113,11 +113,18 @@ Processed process(InputItem&& item, const std::vector<Target>& targets) {
     if (!read.result) return out;
     NeutralResult result = std::move(*read.result);
     const auto& table = quantity_table();
-    add_unique(out.findings, normalize(result, table));
-    if (result.id.empty()) result.id = result_identifier(result);
-    for (Target t : targets) add_unique(out.findings, validate(result, t, table));
-    // Findings travel in the result, so every writer renders the same facts.
-    add_unique(result.findings, std::vector<Finding>(out.findings));
+    // Each step appends its findings to result.findings, so every writer
+    // renders the same facts.
+    normalize(result, table);
+    assess_physiology(result, options.physiology);
+    apply_reference_values(result, options.reference);
+    // Always through result_identifier: a document's own id is made
+    // filesystem-safe there, with a hash suffix so two ids never collide.
+    result.id = result_identifier(result);
+    // What the gateway writes follows the current schema version.
+    result.schema_version = "1." + std::to_string(neutral::kSchemaMinor);
+    for (Target t : options.targets) add_unique(result.findings, validate(result, t, table));
+    add_unique(out.findings, std::vector<Finding>(result.findings));
     out.result = std::move(result);
     return out;
 }

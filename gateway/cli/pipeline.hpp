@@ -10,6 +10,8 @@
 #include <vector>
 
 #include "gateway/core/model.hpp"
+#include "gateway/core/physiology/physiology.hpp"
+#include "gateway/core/reference/reference_values.hpp"
 #include "gateway/core/validate.hpp"
 
 namespace pftgw::cli {
@@ -41,7 +43,15 @@ bool for_each_document(const std::filesystem::path& file,
 // Counts documents without parsing them (lines of .jsonl, 1 otherwise).
 std::size_t count_documents(const std::filesystem::path& file);
 
-// Reads, normalizes, identifies and validates one document for `targets`.
-Processed process(InputItem&& item, const std::vector<Target>& targets);
+struct ProcessOptions {
+    std::vector<Target> targets;   // whose completeness rules apply
+    ReferencePolicy reference;     // GLI reference values: none, fill or both
+    PhysiologyOptions physiology;  // recomputation, grading, adjustments
+};
+
+// Reads one document, then: normalize (canonical units and conditions,
+// derived quantities), physiology (recompute, grade, adjust where the
+// maneuvers are sent), reference values (per policy), identity, validation.
+Processed process(InputItem&& item, const ProcessOptions& options);
 
 }  // namespace pftgw::cli

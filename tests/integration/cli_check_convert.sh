@@ -46,7 +46,7 @@ sed 's/ value="2020" unit="mL" condition="ATPS">/ value="2020" condition="ATPS">
 expect_rule "$work/no-unit.xml" unit.missing 1
 # The broken XML message names line and column.
 "$pftgw" check samples/lab/bad-schema-malformed.xml > "$work/out.txt"
-if grep -Eq 'line [0-9]+, column [0-9]+' "$work/out.txt"; then ok; else bad "malformed XML message has no line/column"; cat "$work/out.txt"; fi
+if grep -Eq 'bad-schema-malformed.xml:[0-9]+:[0-9]+: ' "$work/out.txt"; then ok; else bad "malformed XML message has no line/column"; cat "$work/out.txt"; fi
 # A file that does not exist: exit 3; a bad option: exit 2.
 "$pftgw" check "$work/nothing-here.xml" > /dev/null; rc=$?
 [ "$rc" -eq 3 ] && ok || bad "missing input: exit $rc, expected 3"

@@ -366,14 +366,24 @@ private:
         const auto vc_l = largest_vc_l();
         std::vector<DlcoManeuver> maneuvers;
         std::vector<std::size_t> index;  // trial index of each maneuver
+        std::size_t ungradable = 0;
         for (std::size_t j = 0; j < t.trials.size(); ++j) {
             TrialDlco td = dlco_trial(i, j, vc_l);
             const DlcoManeuver& m = td.maneuver;
-            if (m.vi_vc || m.breath_hold_s || m.dlco_ml_min_mmhg) {
+            // A grade needs at least VI/VC and the breath-hold time; a trial that
+            // carries only its DLCO is not graded (a grade "none" would mislead).
+            if (m.vi_vc && m.breath_hold_s) {
                 maneuvers.push_back(m);
                 index.push_back(j);
+            } else if (m.dlco_ml_min_mmhg) {
+                ++ungradable;
             }
         }
+        if (maneuvers.empty() && ungradable > 0)
+            add("quality.dlco.not-graded", Severity::info, test_path(i),
+                "DLCO maneuvers not graded: grading needs VI/VC (VI and a VC) and the breath-hold "
+                "time of each maneuver",
+                {{"maneuvers", std::to_string(ungradable)}});
         // Interval from the previous maneuver, in time order.
         for (std::size_t a = 0; a < maneuvers.size(); ++a) {
             const auto& ta = t.trials[index[a]].time;

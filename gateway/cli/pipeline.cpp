@@ -8,8 +8,6 @@
 #include <sstream>
 
 #include "adapters/neutral/neutral_io.hpp"
-#include "gateway/core/identity.hpp"
-#include "gateway/core/normalize.hpp"
 #include "gateway/core/quantity_table.hpp"
 
 namespace fs = std::filesystem;
@@ -112,18 +110,9 @@ Processed process(InputItem&& item, const ProcessOptions& options) {
     out.findings = std::move(read.findings);
     if (!read.result) return out;
     NeutralResult result = std::move(*read.result);
-    const auto& table = quantity_table();
-    // Each step appends its findings to result.findings, so every writer
-    // renders the same facts.
-    normalize(result, table);
-    assess_physiology(result, options.physiology);
-    apply_reference_values(result, options.reference);
-    // Always through result_identifier: a document's own id is made
-    // filesystem-safe there, with a hash suffix so two ids never collide.
-    result.id = result_identifier(result);
+    prepare_result(result, options, quantity_table());
     // What the gateway writes follows the current schema version.
     result.schema_version = "1." + std::to_string(neutral::kSchemaMinor);
-    for (Target t : options.targets) add_unique(result.findings, validate(result, t, table));
     add_unique(out.findings, std::vector<Finding>(result.findings));
     out.result = std::move(result);
     return out;

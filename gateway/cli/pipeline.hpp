@@ -10,9 +10,7 @@
 #include <vector>
 
 #include "gateway/core/model.hpp"
-#include "gateway/core/physiology/physiology.hpp"
-#include "gateway/core/reference/reference_values.hpp"
-#include "gateway/core/validate.hpp"
+#include "gateway/core/prepare.hpp"
 
 namespace pftgw::cli {
 
@@ -43,15 +41,9 @@ bool for_each_document(const std::filesystem::path& file,
 // Counts documents without parsing them (lines of .jsonl, 1 otherwise).
 std::size_t count_documents(const std::filesystem::path& file);
 
-struct ProcessOptions {
-    std::vector<Target> targets;   // whose completeness rules apply
-    ReferencePolicy reference;     // GLI reference values: none, fill or both
-    PhysiologyOptions physiology;  // recomputation, grading, adjustments
-};
+using ProcessOptions = PrepareOptions;
 
-// Reads one document, then: normalize (canonical units and conditions,
-// derived quantities), physiology (recompute, grade, adjust where the
-// maneuvers are sent), reference values (per policy), identity, validation.
+// Reads one document, then runs the core's prepare_result() on it.
 Processed process(InputItem&& item, const ProcessOptions& options);
 
 }  // namespace pftgw::cli

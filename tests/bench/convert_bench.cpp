@@ -15,6 +15,7 @@
 #include "adapters/hl7v2/oru_writer.hpp"
 #include "adapters/neutral/neutral_io.hpp"
 #include "gateway/core/normalize.hpp"
+#include "gateway/core/prepare.hpp"
 #include "gateway/core/quantity_table.hpp"
 #include "gateway/core/validate.hpp"
 #include "tests/support/examples.hpp"
@@ -62,9 +63,9 @@ void convert_batch(benchmark::State& state, Target target, Write write) {
                 return;
             }
             NeutralResult& r = *read.result;
-            normalize(r, table);
-            auto found = validate(r, target, table);
-            r.findings.insert(r.findings.end(), found.begin(), found.end());
+            PrepareOptions options;
+            options.targets = {target};
+            prepare_result(r, options, table);
             const NeutralResult rendered = render_units(r, UnitSystem::si, table);
             sink.clear();
             write(rendered, table, sink);
@@ -113,16 +114,17 @@ void BM_ReadXmlOnly(benchmark::State& state) {
         benchmark::Counter(static_cast<double>(state.iterations()), benchmark::Counter::kIsRate);
 }
 
-void BM_NormalizeValidateRender(benchmark::State& state) {
+void BM_PrepareAndRender(benchmark::State& state) {
     const auto& table = quantity_table();
     const NeutralResult base = *neutral::read_xml(documents()[0], "bench").result;
+    PrepareOptions options;
+    options.targets = {Target::fhir};
     for (auto _ : state) {
         NeutralResult r = base;
-        normalize(r, table);
-        auto found = validate(r, Target::fhir, table);
+        const bool ok = prepare_result(r, options, table);
         auto rendered = render_units(r, UnitSystem::si, table);
         benchmark::DoNotOptimize(rendered);
-        benchmark::DoNotOptimize(found);
+        benchmark::DoNotOptimize(ok);
     }
     state.counters["results_per_s"] =
         benchmark::Counter(static_cast<double>(state.iterations()), benchmark::Counter::kIsRate);
@@ -163,7 +165,7 @@ void BM_WriteFhirJsonOnly(benchmark::State& state) {
 BENCHMARK(BM_NeutralXmlToHl7)->Arg(batch_size())->Unit(benchmark::kMillisecond)->UseRealTime();
 BENCHMARK(BM_NeutralXmlToFhirJson)->Arg(batch_size())->Unit(benchmark::kMillisecond)->UseRealTime();
 BENCHMARK(BM_ReadXmlOnly);
-BENCHMARK(BM_NormalizeValidateRender);
+BENCHMARK(BM_PrepareAndRender);
 BENCHMARK(BM_WriteHl7Only);
 BENCHMARK(BM_WriteFhirJsonOnly);
 

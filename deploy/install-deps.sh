@@ -13,6 +13,7 @@ debian_packages=(
   nlohmann-json3-dev libpugixml-dev libcli11-dev libfmt-dev
   libgtest-dev libbenchmark-dev librapidcheck-dev
   clang-format libxml2-utils python3 python3-hl7
+  clang libclang-rt-14-dev
 )
 
 missing=()

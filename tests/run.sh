@@ -32,9 +32,37 @@ bench_smoke() {
   return $ok
 }
 
+# Fuzz targets (libFuzzer needs clang): each runs for a bounded time on a
+# scratch copy of its seed corpus in tests/fuzz/corpus/<name>/.
+fuzz() {
+  local secs=${PFTGW_FUZZ_SECONDS:-30}
+  CXX=clang++ cmake -S tests/fuzz -B build/fuzz -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo > /dev/null || return 1
+  cmake --build build/fuzz -j "$(nproc)" || return 1
+  local rc=0 n=0
+  for f in build/fuzz/*_fuzz; do
+    [ -x "$f" ] || continue
+    local name corpus scratch
+    name=$(basename "$f" _fuzz)
+    corpus=tests/fuzz/corpus/$name
+    scratch=$(mktemp -d)
+    [ -d "$corpus" ] && cp -r "$corpus"/. "$scratch"/
+    echo "-- $name: ${secs} s"
+    if "$f" -max_total_time="$secs" -print_final_stats=1 "$scratch" > "build/fuzz/$name.log" 2>&1; then
+      grep -E 'stat::number_of_executed_units' "build/fuzz/$name.log" || true
+    else
+      echo "fuzz target $name failed; see build/fuzz/$name.log"; tail -n 30 "build/fuzz/$name.log"; rc=1
+    fi
+    rm -rf "$scratch"
+    n=$((n + 1))
+  done
+  [ "$n" -gt 0 ] || { echo "no fuzz targets were built"; return 1; }
+  return $rc
+}
+
 stage "clang-format" format_check
 stage "unit and integration tests (ctest)" ctest --test-dir build --output-on-failure -j 2
 stage "conformance against outside references" bash tests/conformance/run.sh build/pftgw
+stage "fuzz targets (bounded time)" fuzz
 stage "benchmark smoke run" bench_smoke
 
 echo

@@ -16,14 +16,15 @@ cd "$here"
 echo
 echo "== pftgw check samples/lab   (some sessions are bad on purpose: samples/README.md)"
 "$pftgw" check samples/lab > "$out/check.txt"
-echo "   exit status $? (1 = some results have errors; the full report is in out/demo/check.txt)"
+echo "   exit status $? (expected 3 here: the bad-schema-* samples cannot be read at all; 1 = errors, 0 = clean)"
+echo "   full report: out/demo/check.txt"
 tail -n 3 "$out/check.txt" | sed 's/^/   /'
 
 for to in hl7v2 fhir-json neutral-json; do
   echo
   echo "== pftgw convert --to $to --out out/demo/$to samples/lab"
   "$pftgw" convert --to "$to" --out "$out/$to" samples/lab > "$out/convert-$to.txt" 2> "$out/convert-$to.blocked.txt"
-  echo "   exit status $? (1 = some results were blocked and not written; their findings: out/demo/convert-$to.blocked.txt)"
+  echo "   exit status $? (expected 3: unreadable bad samples; blocked results and their findings: out/demo/convert-$to.blocked.txt)"
   grep -E '^read ' "$out/convert-$to.txt" | sed 's/^/   /'
 done
 
@@ -31,6 +32,16 @@ echo
 echo "== pftgw convert --to hl7v2 --units traditional --out out/demo/hl7v2-traditional samples/lab"
 "$pftgw" convert --to hl7v2 --units traditional --out "$out/hl7v2-traditional" samples/lab > "$out/convert-hl7v2-traditional.txt" 2>/dev/null
 grep -E '^read ' "$out/convert-hl7v2-traditional.txt" | sed 's/^/   /'
+
+echo
+echo "== the 2019 archive re-expressed with GLI: pftgw convert --to neutral-json --reference both --out out/demo/gli samples/lab/archive-2019.jsonl"
+"$pftgw" convert --to neutral-json --reference both --out "$out/gli" samples/lab/archive-2019.jsonl > "$out/convert-gli.txt" 2>&1
+grep -E '^read ' "$out/convert-gli.txt" | sed 's/^/   /'
+echo "   each FEV1 now carries the device's own predicted values and the gateway's GLI Global 2022 ones, each naming its equation set"
+
+echo
+echo "== pftgw reference --set gli-2017 --quantity DLCO --units traditional --sex M --age 45 --height 178"
+"$pftgw" reference --set gli-2017 --quantity DLCO --units traditional --sex M --age 45 --height 178 | sed 's/^/   /'
 
 first=$(ls "$out/hl7v2" | head -n 1)
 if [ -n "$first" ]; then

@@ -6,6 +6,7 @@
 
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "gateway/core/model.hpp"
@@ -50,6 +51,26 @@ struct CsvLayout {
     std::string unit_column;
 };
 
+// A device's spelling of a unit and the UCUM unit it means ("ml" -> "mL").
+// Readers put the UCUM form in Quantity::unit and keep the spelling in
+// SourceForm::unit_text.
+struct UnitAlias {
+    std::string sent;
+    std::string ucum;
+};
+
+// A value a device sends inside a comment record rather than a result record
+// (ambient temperature and pressure in an ASTM C record, for example). The
+// comment text's first component is `tag`; component `component` (1-based)
+// holds the value, which is then read as the device code `code` (mapped
+// through DeviceProfile::codes). `unit_component` (0: none) holds its unit.
+struct CommentValue {
+    std::string tag;
+    int component = 2;
+    std::string code;
+    int unit_component = 0;
+};
+
 struct DeviceProfile {
     std::string name;         // e.g. "aldercrest-flowquill-3"
     std::string source_file;  // where it was loaded from, for messages
@@ -65,10 +86,22 @@ struct DeviceProfile {
     std::string equation_set;  // label of the device's own predicted values, e.g. "GLI-2012"
     std::string patient_identifier_system;  // system given to bare patient numbers
     std::optional<CsvLayout> csv;
+    // Added for the ASTM E1394 reader (issue 3):
+    std::vector<UnitAlias> unit_aliases;       // the device's unit spellings
+    std::vector<CommentValue> comment_values;  // values sent in comment records
+    std::string laboratory_identifier_system;  // system of the lab's own patient number
+    std::string height_unit;                   // UCUM unit of a height sent without one
+    std::string weight_unit;                   // UCUM unit of a weight sent without one
 
     const CodeMapping* find_code(std::string_view code) const {
         for (const auto& c : codes)
             if (c.code == code) return &c;
+        return nullptr;
+    }
+    // The UCUM unit a device spelling stands for, or nullptr when the profile has none.
+    const std::string* ucum_for(std::string_view sent) const {
+        for (const auto& a : unit_aliases)
+            if (a.sent == sent) return &a.ucum;
         return nullptr;
     }
 };

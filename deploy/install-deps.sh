@@ -12,7 +12,7 @@ debian_packages=(
   g++ cmake ninja-build pkg-config
   nlohmann-json3-dev libpugixml-dev libcli11-dev libfmt-dev
   libgtest-dev libbenchmark-dev librapidcheck-dev
-  clang-format libxml2-utils python3 python3-hl7
+  clang-format libxml2-utils python3 python3-hl7 libtomlplusplus-dev
   clang libclang-rt-14-dev
 )
 

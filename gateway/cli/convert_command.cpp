@@ -1,9 +1,20 @@
 // pftgw convert: neutral documents to HL7 v2, FHIR or neutral files, one per result.
+// Fit for archives: streams the inputs in bounded batches, uses every core
+// (--jobs) with output names and order that do not depend on the job count,
+// resumes (a second run skips what it already wrote), never stops on one bad
+// record (it goes to rejects.jsonl with its findings) and ends with a summary
+// on screen and in summary.json.
 #include <fmt/core.h>
+#include <unistd.h>
 
+#include <atomic>
+#include <chrono>
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <nlohmann/json.hpp>
+#include <thread>
+#include <unordered_set>
 
 #include "gateway/cli/commands.hpp"
 #include "gateway/cli/formats.hpp"
@@ -21,6 +32,12 @@ namespace {
 
 // DECISIONS.md: above this many results, outputs go into subfolders.
 constexpr std::size_t kFlatFolderLimit = 10000;
+// Documents held in memory at once: bounds memory whatever the archive size.
+constexpr std::size_t kBatchDocuments = 512;
+constexpr const char* kManifestName = ".pftgw-done";
+constexpr const char* kRejectsName = "rejects.jsonl";
+constexpr const char* kSummaryName = "summary.json";
+constexpr auto kProgressInterval = std::chrono::milliseconds(200);
 
 struct ConvertOptions {
     std::string to;
@@ -29,19 +46,30 @@ struct ConvertOptions {
     std::vector<std::string> inputs;
     WriterSettings writer;
     PolicyOptions policy;
+    unsigned jobs = 0;  // 0: every core
     bool quiet = false;
+};
+
+enum class Outcome { written, skipped, blocked, unreadable, failed };
+
+// One input document on its way through a batch.
+struct Work {
+    InputItem item;
+    std::string key;  // resume key: options + input bytes
+    Outcome outcome = Outcome::failed;
+    Processed processed;
+    std::string relative_path;  // of the output file, when written
+    std::string error;          // a write failure
 };
 
 // "<id>.hl7" for revision 1, "<id>.r2.hl7" for later revisions, so a
 // correction never overwrites the message it corrects.
-fs::path output_path(const ConvertOptions& o, const OutputFormat& f, const NeutralResult& r,
-                     bool sharded) {
+std::string output_name(const OutputFormat& f, const NeutralResult& r, bool sharded) {
     std::string name = filesystem_safe(r.id);
     if (r.revision > 1) name += ".r" + std::to_string(r.revision);
     name += f.extension;
-    fs::path dir(o.out_dir);
-    if (sharded) dir /= sha256_hex(r.id).substr(0, 2);
-    return dir / name;
+    if (sharded) return sha256_hex(r.id).substr(0, 2) + "/" + name;
+    return name;
 }
 
 bool write_file(const fs::path& path, const std::string& bytes, std::string& error) {
@@ -69,6 +97,225 @@ bool write_file(const fs::path& path, const std::string& bytes, std::string& err
     return true;
 }
 
+// Everything that changes the bytes written, so a resumed run with other
+// options converts again instead of skipping.
+std::string options_signature(const ConvertOptions& o) {
+    return fmt::format("pftgw 0.1.0|{}|{}|{}|{}|{}|{}|{}|{}", o.to, o.units, o.policy.reference,
+                       o.policy.spirometry_set, o.policy.gli2012_group, o.writer.sending_facility,
+                       o.writer.receiving_application, o.writer.receiving_facility);
+}
+
+std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
+    std::unordered_set<std::string> done;
+    std::ifstream in(out_dir / kManifestName);
+    std::string line;
+    while (std::getline(in, line)) {
+        const auto space = line.find(' ');
+        if (space == std::string::npos) continue;
+        // Only what is still on disk counts as done.
+        std::error_code ec;
+        if (fs::exists(out_dir / line.substr(space + 1), ec)) done.insert(line.substr(0, space));
+    }
+    return done;
+}
+
+nlohmann::json reject_json(const Work& w) {
+    nlohmann::json findings = nlohmann::json::array();
+    for (const auto& f : w.processed.findings) {
+        if (f.severity == Severity::info) continue;
+        findings.push_back({{"rule", f.rule},
+                            {"severity", std::string(to_string(f.severity))},
+                            {"path", f.path},
+                            {"message", f.message}});
+    }
+    return {{"source", w.processed.source.empty() ? w.item.source : w.processed.source},
+            {"id", w.processed.result ? w.processed.result->id : ""},
+            {"outcome", w.outcome == Outcome::unreadable ? "unreadable" : "blocked"},
+            {"findings", findings}};
+}
+
+class Converter {
+public:
+    Converter(const ConvertOptions& o, const OutputFormat& f, UnitSystem units, bool sharded)
+        : o_(o), format_(f), units_(units), sharded_(sharded), out_dir_(o.out_dir) {
+        settings_ = o.writer;
+        settings_.units = units;
+        process_.targets = {f.target};
+        signature_ = options_signature(o);
+        done_ = load_manifest(out_dir_);
+        manifest_.open(out_dir_ / kManifestName, std::ios::app);
+        rejects_.open(out_dir_ / kRejectsName, std::ios::trunc);
+        jobs_ = o.jobs ? o.jobs : std::max(1u, std::thread::hardware_concurrency());
+    }
+
+    bool set_policy() { return parse_policy(o_.policy, process_.reference, "convert"); }
+
+    void add(InputItem&& item) {
+        batch_.push_back(Work{std::move(item), {}, Outcome::failed, {}, {}, {}});
+        if (batch_.size() >= kBatchDocuments) flush();
+    }
+
+    // Processes the batch on `jobs_` threads, then records it in input order.
+    void flush() {
+        if (batch_.empty()) return;
+        std::atomic<std::size_t> next{0};
+        auto worker = [&] {
+            for (std::size_t i = next++; i < batch_.size(); i = next++) convert_one(batch_[i]);
+        };
+        std::vector<std::thread> threads;
+        for (unsigned t = 1; t < jobs_ && t < batch_.size(); ++t) threads.emplace_back(worker);
+        worker();
+        for (auto& t : threads) t.join();
+        for (Work& w : batch_) record(w);
+        batch_.clear();
+    }
+
+    void note_unreadable_file(const std::string& source, const std::string& error) {
+        Work w;
+        w.item.source = source;
+        w.outcome = Outcome::unreadable;
+        w.processed.source = source;
+        w.processed.findings.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
+        record(w);
+    }
+
+    RunCounts counts;
+    std::size_t skipped = 0;
+    std::size_t total = 0;
+    bool write_failed = false;
+    std::map<std::string, int> rule_counts;
+
+    void finish(double seconds) {
+        if (progress_shown_) std::fputs("\r\033[K", stderr);
+        nlohmann::json top = nlohmann::json::array();
+        for (const auto& [rule, n] : top_rules()) top.push_back({{"rule", rule}, {"count", n}});
+        const nlohmann::json summary = {{"to", o_.to},
+                                        {"units", o_.units},
+                                        {"reference", o_.policy.reference},
+                                        {"read", counts.read},
+                                        {"written", counts.written},
+                                        {"writtenWithWarnings", counts.with_warnings},
+                                        {"skippedAlreadyWritten", skipped},
+                                        {"blocked", counts.blocked},
+                                        {"unreadable", counts.unreadable},
+                                        {"topFindings", top},
+                                        {"rejects", kRejectsName},
+                                        {"caution", kCaution}};
+        std::ofstream(out_dir_ / kSummaryName) << summary.dump(2) << "\n";
+        if (o_.quiet) return;
+        print_summary(stdout, counts, rule_counts, o_.out_dir);
+        if (skipped > 0)
+            fmt::print("skipped {} already written by an earlier run with the same options\n",
+                       skipped);
+        fmt::print("{:.1f} s, {} jobs; summary.json and rejects.jsonl in {}\n", seconds, jobs_,
+                   o_.out_dir);
+    }
+
+private:
+    void convert_one(Work& w) {
+        w.key = sha256_hex(signature_ + "\x1f" + w.item.bytes);
+        if (done_.count(w.key)) {
+            w.outcome = Outcome::skipped;
+            return;
+        }
+        w.processed = process(std::move(w.item), process_);
+        if (!w.processed.result) {
+            w.outcome = Outcome::unreadable;
+            return;
+        }
+        if (w.processed.blocked()) {
+            w.outcome = Outcome::blocked;
+            return;
+        }
+        const NeutralResult rendered = render_units(*w.processed.result, units_, quantity_table());
+        std::string bytes;
+        format_.write(rendered, settings_, bytes);
+        w.relative_path = output_name(format_, rendered, sharded_);
+        w.outcome = write_file(out_dir_ / w.relative_path, bytes, w.error) ? Outcome::written
+                                                                           : Outcome::failed;
+    }
+
+    void record(Work& w) {
+        ++counts.read;
+        // The summary ranks what needs a person: warnings and errors, not info.
+        for (const auto& f : w.processed.findings)
+            if (f.severity != Severity::info) ++rule_counts[f.rule];
+        switch (w.outcome) {
+            case Outcome::written:
+                ++counts.written;
+                if (has_warnings(w.processed.findings)) ++counts.with_warnings;
+                manifest_ << w.key << ' ' << w.relative_path << '\n';
+                break;
+            case Outcome::skipped:
+                ++skipped;
+                break;
+            case Outcome::blocked:
+            case Outcome::unreadable:
+                if (w.outcome == Outcome::blocked)
+                    ++counts.blocked;
+                else
+                    ++counts.unreadable;
+                rejects_ << reject_json(w).dump() << '\n';
+                if (!o_.quiet) {
+                    if (progress_shown_) std::fputs("\r\033[K", stderr);
+                    print_findings_text(stderr, w.processed,
+                                        w.outcome == Outcome::blocked ? "blocked" : "unreadable");
+                }
+                break;
+            case Outcome::failed:
+                fmt::print(stderr, "pftgw convert: {}\n", w.error);
+                write_failed = true;
+                break;
+        }
+        show_progress();
+    }
+
+    // On a terminal only, and never with --quiet.
+    void show_progress() {
+        if (o_.quiet || !isatty(fileno(stderr))) return;
+        const auto now = std::chrono::steady_clock::now();
+        if (now - last_progress_ < kProgressInterval && counts.read < total) return;
+        last_progress_ = now;
+        const double elapsed = std::chrono::duration<double>(now - start_).count();
+        const double rate = elapsed > 0 ? static_cast<double>(counts.read) / elapsed : 0;
+        const double left =
+            rate > 0 ? static_cast<double>(total - std::min(total, counts.read)) / rate : 0;
+        const int width = 30;
+        const int filled = total ? static_cast<int>(width * counts.read / total) : width;
+        fmt::print(stderr,
+                   "\r[{:<{}}] {}/{}  {:.0f}/s  {}:{:02d} left  written {} skipped {} rejected {}",
+                   std::string(static_cast<std::size_t>(filled), '#'), width, counts.read, total,
+                   rate, static_cast<int>(left) / 60, static_cast<int>(left) % 60, counts.written,
+                   skipped, counts.blocked + counts.unreadable);
+        progress_shown_ = true;
+    }
+
+    std::vector<std::pair<std::string, int>> top_rules() const {
+        std::vector<std::pair<std::string, int>> top(rule_counts.begin(), rule_counts.end());
+        std::stable_sort(top.begin(), top.end(),
+                         [](const auto& a, const auto& b) { return a.second > b.second; });
+        if (top.size() > 10) top.resize(10);
+        return top;
+    }
+
+    const ConvertOptions& o_;
+    const OutputFormat& format_;
+    UnitSystem units_;
+    bool sharded_;
+    fs::path out_dir_;
+    WriterSettings settings_;
+    ProcessOptions process_;
+    std::string signature_;
+    std::unordered_set<std::string> done_;
+    std::ofstream manifest_;
+    std::ofstream rejects_;
+    unsigned jobs_ = 1;
+    std::vector<Work> batch_;
+    bool progress_shown_ = false;
+    std::chrono::steady_clock::time_point start_ = std::chrono::steady_clock::now();
+    std::chrono::steady_clock::time_point last_progress_{};
+};
+
 int run_convert(const ConvertOptions& o) {
     const OutputFormat* format = find_format(o.to);
     if (!format) {
@@ -81,23 +328,6 @@ int run_convert(const ConvertOptions& o) {
         fmt::print(stderr, "pftgw convert: --units must be si or traditional, not '{}'\n", o.units);
         return kExitUsage;
     }
-    WriterSettings settings = o.writer;
-    settings.units = *units;
-    ProcessOptions process_options;
-    process_options.targets = {format->target};
-    if (!parse_policy(o.policy, process_options.reference, "convert")) return kExitUsage;
-
-    std::vector<std::string> missing;
-    const auto files = find_inputs(o.inputs, missing);
-    RunCounts counts;
-    for (const auto& m : missing) {
-        fmt::print(stderr, "unreadable  {}: no such file or folder\n", m);
-        ++counts.unreadable;
-    }
-    std::size_t total = 0;
-    for (const auto& f : files) total += count_documents(f);
-    const bool sharded = total > kFlatFolderLimit;
-
     std::error_code ec;
     fs::create_directories(o.out_dir, ec);
     if (ec) {
@@ -105,48 +335,28 @@ int run_convert(const ConvertOptions& o) {
                    ec.message());
         return kExitUsage;
     }
-    std::map<std::string, int> rule_counts;
-    std::string bytes;
-    bool write_failed = false;
+    const auto start = std::chrono::steady_clock::now();
+    std::vector<std::string> missing;
+    const auto files = find_inputs(o.inputs, missing);
+    std::size_t total = 0;
+    for (const auto& f : files) total += count_documents(f);
+
+    Converter c(o, *format, *units, total > kFlatFolderLimit);
+    if (!c.set_policy()) return kExitUsage;
+    c.total = total;
+    for (const auto& m : missing) c.note_unreadable_file(m, "no such file or folder: " + m);
     for (const auto& file : files) {
         std::string error;
-        const bool ok = for_each_document(
-            file,
-            [&](InputItem&& item) {
-                Processed p = process(std::move(item), process_options);
-                ++counts.read;
-                for (const auto& f : p.findings) ++rule_counts[f.rule];
-                if (!p.result) {
-                    ++counts.unreadable;
-                    print_findings_text(stderr, p, "unreadable");
-                    return;
-                }
-                if (p.blocked()) {
-                    ++counts.blocked;
-                    print_findings_text(stderr, p, "blocked");
-                    return;
-                }
-                const NeutralResult rendered = render_units(*p.result, *units, quantity_table());
-                bytes.clear();
-                format->write(rendered, settings, bytes);
-                std::string werr;
-                if (!write_file(output_path(o, *format, rendered, sharded), bytes, werr)) {
-                    fmt::print(stderr, "pftgw convert: {}\n", werr);
-                    write_failed = true;
-                    return;
-                }
-                ++counts.written;
-                if (has_warnings(p.findings)) ++counts.with_warnings;
-            },
-            error);
-        if (!ok) {
-            ++counts.unreadable;
-            fmt::print(stderr, "unreadable  {}: {}\n", file.string(), error);
+        if (!for_each_document(
+                file, [&](InputItem&& item) { c.add(std::move(item)); }, error)) {
+            c.flush();  // keep the input order in rejects.jsonl
+            c.note_unreadable_file(file.string(), error);
         }
     }
-    if (!o.quiet) print_summary(stdout, counts, rule_counts, o.out_dir);
-    if (write_failed) return kExitUnreadable;
-    return exit_code_for(counts);
+    c.flush();
+    c.finish(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+    if (c.write_failed) return kExitUnreadable;
+    return exit_code_for(c.counts);
 }
 
 }  // namespace
@@ -164,7 +374,10 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
     sub->add_option("--sending-facility", opts->writer.sending_facility, "HL7 MSH-4");
     sub->add_option("--receiving-application", opts->writer.receiving_application, "HL7 MSH-5");
     sub->add_option("--receiving-facility", opts->writer.receiving_facility, "HL7 MSH-6");
-    sub->add_flag("--quiet", opts->quiet, "Print no summary");
+    sub->add_option("--jobs", opts->jobs,
+                    "Worker threads (default: every core); outputs do not depend on it");
+    sub->add_flag("--quiet", opts->quiet,
+                  "Print no progress, rejects or summary (summary.json is still written)");
     add_policy_options(*sub, opts->policy);
     sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
     sub->callback([opts, &ctx] { ctx.exit_code = run_convert(*opts); });

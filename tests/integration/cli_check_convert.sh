@@ -66,7 +66,7 @@ for to in hl7v2 fhir-json fhir-xml neutral-xml neutral-json; do
   "$pftgw" convert --quiet --to "$to" --out "$work/a-$to" samples/examples; rc1=$?
   "$pftgw" convert --quiet --to "$to" --out "$work/b-$to" samples/examples; rc2=$?
   if [ "$rc1" -eq 0 ] && [ "$rc2" -eq 0 ] && diff -r "$work/a-$to" "$work/b-$to" > /dev/null; then ok; else bad "convert --to $to not deterministic or failed ($rc1/$rc2)"; fi
-  n=$(ls "$work/a-$to" | wc -l)
+  n=$(find "$work/a-$to" -name '*.hl7' -o -name 'KVH-*.json' -o -name 'KVH-*.xml' | wc -l)
   [ "$n" -eq 3 ] && ok || bad "convert --to $to wrote $n files for 3 examples"
 done
 [ -f "$work/a-hl7v2/KVH-SPX3-004001.hl7" ] && ok || bad "HL7 output not named by the result id"
@@ -78,6 +78,22 @@ done
 grep -q "blocked" "$work/blocked.txt" && ok || bad "blocked results not reported"
 # The revision-2 correction gets its own file beside revision 1.
 ls "$work/lab" | grep -q '\.r2\.hl7$' && ok || bad "no revision-2 file"
+
+# Archive scale: the same outputs whatever --jobs; a second run skips what is
+# written; blocked and unreadable inputs are in rejects.jsonl; summary.json counts.
+"$pftgw" convert --quiet --to fhir-json --jobs 1 --out "$work/j1" samples/lab 2>/dev/null
+"$pftgw" convert --quiet --to fhir-json --jobs 2 --out "$work/j2" samples/lab 2>/dev/null
+diff -r "$work/j1" "$work/j2" > /dev/null && ok || bad "outputs differ between --jobs 1 and --jobs 2"
+written=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['written'])" "$work/j1/summary.json")
+rejected=$(wc -l < "$work/j1/rejects.jsonl")
+blocked=$(python3 -c "import json,sys; d=json.load(open(sys.argv[1])); print(d['blocked'] + d['unreadable'])" "$work/j1/summary.json")
+[ "$written" -gt 20 ] && [ "$rejected" -eq "$blocked" ] && ok || bad "summary.json written=$written, rejects $rejected lines vs $blocked blocked+unreadable"
+"$pftgw" convert --quiet --to fhir-json --out "$work/j1" samples/lab 2>/dev/null
+skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
+[ "$skipped" -eq "$written" ] && ok || bad "resumed run skipped $skipped, expected $written"
+"$pftgw" convert --quiet --to fhir-json --units traditional --out "$work/j1" samples/lab 2>/dev/null
+skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
+[ "$skipped" -eq 0 ] && ok || bad "a run with other options skipped $skipped"
 
 # The quantity table's Markdown rendering is committed and current.
 "$pftgw" quantities --format markdown > "$work/QUANTITIES.md"

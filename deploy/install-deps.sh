@@ -14,6 +14,7 @@ debian_packages=(
   libgtest-dev libbenchmark-dev librapidcheck-dev
   clang-format libxml2-utils python3 python3-hl7 libtomlplusplus-dev
   clang libclang-rt-14-dev
+  libhowardhinnant-date-dev tzdata
 )
 
 missing=()

@@ -703,7 +703,7 @@ ReadMessage read_one(std::string_view bytes, std::size_t begin, std::size_t end,
     rm.parsed = std::move(p.message);
     const ParsedMessage& m = *rm.parsed;
     const Segment& msh = m.msh();
-    rm.control_id.assign(m.raw(msh, 10));
+    rm.control_id.assign(m.field(msh, 10));
     if (!p.unknown_charset.empty())
         reject(rm, kRuleCharset,
                "MSH-18 '" + p.unknown_charset + "' is not ASCII, 8859/1 or UNICODE UTF-8",

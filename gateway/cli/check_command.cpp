@@ -19,6 +19,7 @@ struct CheckOptions {
     std::string target = "all";
     std::vector<std::string> inputs;
     PolicyOptions policy;
+    InputOptions input;
 };
 
 std::size_t count_severity(const std::vector<Finding>& fs, Severity s) {
@@ -139,7 +140,10 @@ int run_check(const CheckOptions& o) {
         return kExitUsage;
     }
     std::vector<std::string> missing;
-    const auto files = find_inputs(o.inputs, missing);
+    InputContext input;
+    std::optional<DeviceProfile> profile;
+    if (!make_input_context(o.input, input, profile, "check")) return kExitUsage;
+    const auto files = find_inputs(o.inputs, input.from, missing);
     std::vector<Processed> all;
     RunCounts counts;
     auto unreadable = [&](std::string source, std::string message) {
@@ -154,9 +158,9 @@ int run_check(const CheckOptions& o) {
     for (const auto& m : missing) unreadable(m, "no such file or folder: " + m);
     for (const auto& file : files) {
         std::string error;
-        const bool ok = for_each_document(
-            file,
-            [&](InputItem&& item) {
+        const bool ok = for_each_item(
+            file, input,
+            [&](ReadItem&& item) {
                 Processed p = process(std::move(item), process_options);
                 ++counts.read;
                 if (!p.result)
@@ -182,12 +186,14 @@ int run_check(const CheckOptions& o) {
 void add_check_command(CLI::App& app, CommandContext& ctx) {
     auto opts = std::make_shared<CheckOptions>();
     auto* sub = app.add_subcommand(
-        "check", "Check neutral results against the schema and the trade's rules");
+        "check",
+        "Check results (neutral, HL7 v2, ASTM, CSV) against the open schema and the trade's rules");
     sub->add_option("--format", opts->format, "Output: text, json or junit")->capture_default_str();
     sub->add_option("--target", opts->target, "Completeness rules of: all, neutral, hl7v2 or fhir")
         ->capture_default_str();
+    add_input_options(*sub, opts->input);
     add_policy_options(*sub, opts->policy);
-    sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
+    sub->add_option("inputs", opts->inputs, "Files or folders to read (see --from)")->required();
     sub->callback([opts, &ctx] { ctx.exit_code = run_check(*opts); });
 }
 

@@ -16,6 +16,7 @@
 #include <thread>
 #include <unordered_set>
 
+#include "adapters/neutral/neutral_io.hpp"
 #include "gateway/cli/commands.hpp"
 #include "gateway/cli/formats.hpp"
 #include "gateway/cli/pipeline.hpp"
@@ -46,6 +47,7 @@ struct ConvertOptions {
     std::vector<std::string> inputs;
     WriterSettings writer;
     PolicyOptions policy;
+    InputOptions input;
     unsigned jobs = 0;  // 0: every core
     bool quiet = false;
 };
@@ -54,11 +56,12 @@ enum class Outcome { written, skipped, blocked, unreadable, failed };
 
 // One input document on its way through a batch.
 struct Work {
-    InputItem item;
+    ReadItem item;
     std::string key;  // resume key: options + input bytes
     Outcome outcome = Outcome::failed;
     Processed processed;
     std::string relative_path;  // of the output file, when written
+    std::string bytes;          // the output, written by the main thread in input order
     std::string error;          // a write failure
 };
 
@@ -100,8 +103,9 @@ bool write_file(const fs::path& path, const std::string& bytes, std::string& err
 // Everything that changes the bytes written, so a resumed run with other
 // options converts again instead of skipping.
 std::string options_signature(const ConvertOptions& o) {
-    return fmt::format("pftgw 0.1.0|{}|{}|{}|{}|{}|{}|{}|{}", o.to, o.units, o.policy.reference,
-                       o.policy.spirometry_set, o.policy.gli2012_group, o.writer.sending_facility,
+    return fmt::format("pftgw 0.1.0|{}|{}|{}|{}|{}|{}|{}|{}|{}|{}", o.input.from, o.input.profile,
+                       o.to, o.units, o.policy.reference, o.policy.spirometry_set,
+                       o.policy.gli2012_group, o.writer.sending_facility,
                        o.writer.receiving_application, o.writer.receiving_facility);
 }
 
@@ -117,6 +121,15 @@ std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
         if (fs::exists(out_dir / line.substr(space + 1), ec)) done.insert(line.substr(0, space));
     }
     return done;
+}
+
+// What identifies an input for a resumed run: a neutral document's bytes, or
+// a device result as read (written as neutral JSON).
+std::string resume_material(const ReadItem& item) {
+    if (!item.read) return item.bytes;
+    std::string out = item.source;
+    if (item.result) neutral::write_json(*item.result, out);
+    return out;
 }
 
 nlohmann::json reject_json(const Work& w) {
@@ -150,8 +163,10 @@ public:
 
     bool set_policy() { return parse_policy(o_.policy, process_.reference, "convert"); }
 
-    void add(InputItem&& item) {
-        batch_.push_back(Work{std::move(item), {}, Outcome::failed, {}, {}, {}});
+    void add(ReadItem&& item) {
+        Work w;
+        w.item = std::move(item);
+        batch_.push_back(std::move(w));
         if (batch_.size() >= kBatchDocuments) flush();
     }
 
@@ -213,7 +228,7 @@ public:
 
 private:
     void convert_one(Work& w) {
-        w.key = sha256_hex(signature_ + "\x1f" + w.item.bytes);
+        w.key = sha256_hex(signature_ + "\x1f" + resume_material(w.item));
         if (done_.count(w.key)) {
             w.outcome = Outcome::skipped;
             return;
@@ -228,11 +243,9 @@ private:
             return;
         }
         const NeutralResult rendered = render_units(*w.processed.result, units_, quantity_table());
-        std::string bytes;
-        format_.write(rendered, settings_, bytes);
+        format_.write(rendered, settings_, w.bytes);
         w.relative_path = output_name(format_, rendered, sharded_);
-        w.outcome = write_file(out_dir_ / w.relative_path, bytes, w.error) ? Outcome::written
-                                                                           : Outcome::failed;
+        w.outcome = Outcome::written;
     }
 
     void record(Work& w) {
@@ -242,6 +255,13 @@ private:
             if (f.severity != Severity::info) ++rule_counts[f.rule];
         switch (w.outcome) {
             case Outcome::written:
+                // Written here, in input order, so that two inputs with the same
+                // result id end the same way whatever the number of jobs.
+                if (!write_file(out_dir_ / w.relative_path, w.bytes, w.error)) {
+                    fmt::print(stderr, "pftgw convert: {}\n", w.error);
+                    write_failed = true;
+                    break;
+                }
                 ++counts.written;
                 if (has_warnings(w.processed.findings)) ++counts.with_warnings;
                 manifest_ << w.key << ' ' << w.relative_path << '\n';
@@ -335,11 +355,14 @@ int run_convert(const ConvertOptions& o) {
                    ec.message());
         return kExitUsage;
     }
+    InputContext input;
+    std::optional<DeviceProfile> profile;
+    if (!make_input_context(o.input, input, profile, "convert")) return kExitUsage;
     const auto start = std::chrono::steady_clock::now();
     std::vector<std::string> missing;
-    const auto files = find_inputs(o.inputs, missing);
+    const auto files = find_inputs(o.inputs, input.from, missing);
     std::size_t total = 0;
-    for (const auto& f : files) total += count_documents(f);
+    for (const auto& f : files) total += count_documents(f, input.from);
 
     Converter c(o, *format, *units, total > kFlatFolderLimit);
     if (!c.set_policy()) return kExitUsage;
@@ -347,8 +370,8 @@ int run_convert(const ConvertOptions& o) {
     for (const auto& m : missing) c.note_unreadable_file(m, "no such file or folder: " + m);
     for (const auto& file : files) {
         std::string error;
-        if (!for_each_document(
-                file, [&](InputItem&& item) { c.add(std::move(item)); }, error)) {
+        if (!for_each_item(
+                file, input, [&](ReadItem&& item) { c.add(std::move(item)); }, error)) {
             c.flush();  // keep the input order in rejects.jsonl
             c.note_unreadable_file(file.string(), error);
         }
@@ -365,7 +388,7 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
     auto opts = std::make_shared<ConvertOptions>();
     auto* sub = app.add_subcommand(
         "convert",
-        "Convert neutral results (XML, JSON, JSON Lines) to HL7 v2, FHIR R4 or neutral files");
+        "Convert results (neutral, HL7 v2, ASTM, CSV) to HL7 v2, FHIR R4 or neutral files");
     sub->add_option("--to", opts->to, "Output format: " + format_names())->required();
     sub->add_option("--units", opts->units, "Unit system of the output values: si or traditional")
         ->capture_default_str();
@@ -378,8 +401,9 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
                     "Worker threads (default: every core); outputs do not depend on it");
     sub->add_flag("--quiet", opts->quiet,
                   "Print no progress, rejects or summary (summary.json is still written)");
+    add_input_options(*sub, opts->input);
     add_policy_options(*sub, opts->policy);
-    sub->add_option("inputs", opts->inputs, "Files or folders of neutral documents")->required();
+    sub->add_option("inputs", opts->inputs, "Files or folders to read (see --from)")->required();
     sub->callback([opts, &ctx] { ctx.exit_code = run_convert(*opts); });
 }
 

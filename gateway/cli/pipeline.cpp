@@ -15,39 +15,25 @@ namespace fs = std::filesystem;
 namespace pftgw::cli {
 namespace {
 
-bool is_input_file(const fs::path& p) {
-    const auto ext = p.extension().string();
-    return ext == ".xml" || ext == ".json" || ext == ".jsonl";
-}
-
-bool read_file(const fs::path& file, std::string& out, std::string& error) {
-    std::ifstream in(file, std::ios::binary);
-    if (!in) {
-        error = "cannot open " + file.string() + ": " + std::strerror(errno);
-        return false;
-    }
-    std::ostringstream ss;
-    ss << in.rdbuf();
-    if (in.bad()) {
-        error = "cannot read " + file.string();
-        return false;
-    }
-    out = std::move(ss).str();
-    return true;
-}
-
 void add_unique(std::vector<Finding>& into, std::vector<Finding>&& more) {
     for (auto& f : more) {
         const bool seen = std::any_of(into.begin(), into.end(), [&](const Finding& g) {
-            return g.rule == f.rule && g.path == f.path;
+            return g.rule == f.rule && g.path == f.path && g.message == f.message;
         });
         if (!seen) into.push_back(std::move(f));
     }
 }
 
+std::size_t count_of(const std::string& bytes, std::string_view what) {
+    std::size_t n = 0;
+    for (auto pos = bytes.find(what); pos != std::string::npos; pos = bytes.find(what, pos + 1))
+        ++n;
+    return n;
+}
+
 }  // namespace
 
-std::vector<fs::path> find_inputs(const std::vector<std::string>& args,
+std::vector<fs::path> find_inputs(const std::vector<std::string>& args, InputFormat from,
                                   std::vector<std::string>& missing) {
     std::vector<fs::path> out;
     for (const auto& arg : args) {
@@ -57,7 +43,7 @@ std::vector<fs::path> find_inputs(const std::vector<std::string>& args,
             std::vector<fs::path> found;
             for (auto it = fs::recursive_directory_iterator(p, ec);
                  !ec && it != fs::recursive_directory_iterator(); it.increment(ec)) {
-                if (it->is_regular_file(ec) && is_input_file(it->path()))
+                if (it->is_regular_file(ec) && is_input_file(it->path(), from))
                     found.push_back(it->path());
             }
             std::sort(found.begin(), found.end());
@@ -71,45 +57,49 @@ std::vector<fs::path> find_inputs(const std::vector<std::string>& args,
     return out;
 }
 
-bool for_each_document(const fs::path& file, const std::function<void(InputItem&&)>& fn,
-                       std::string& error) {
-    std::string bytes;
-    if (!read_file(file, bytes, error)) return false;
-    if (file.extension() != ".jsonl") {
-        fn(InputItem{file.string(), std::move(bytes)});
-        return true;
-    }
-    std::size_t pos = 0;
-    int line_no = 0;
-    while (pos < bytes.size()) {
-        auto end = bytes.find('\n', pos);
-        if (end == std::string::npos) end = bytes.size();
-        ++line_no;
-        std::string line = bytes.substr(pos, end - pos);
-        pos = end + 1;
-        if (line.find_first_not_of(" \t\r") == std::string::npos) continue;
-        fn(InputItem{file.string() + ":" + std::to_string(line_no), std::move(line)});
-    }
-    return true;
-}
-
-std::size_t count_documents(const fs::path& file) {
-    if (file.extension() != ".jsonl") return 1;
+std::size_t count_documents(const fs::path& file, InputFormat from) {
+    if (from == InputFormat::neutral && file.extension() != ".jsonl") return 1;
     std::ifstream in(file, std::ios::binary);
-    std::size_t n = 0;
-    std::string line;
-    while (std::getline(in, line))
-        if (line.find_first_not_of(" \t\r") != std::string::npos) ++n;
-    return n;
+    std::ostringstream ss;
+    ss << in.rdbuf();
+    const std::string bytes = std::move(ss).str();
+    switch (from) {
+        case InputFormat::neutral: {
+            std::size_t n = 0;
+            std::istringstream lines(bytes);
+            std::string line;
+            while (std::getline(lines, line))
+                if (line.find_first_not_of(" \t\r") != std::string::npos) ++n;
+            return n;
+        }
+        case InputFormat::csv: {
+            const std::size_t lines = count_of(bytes, "\n");
+            return lines > 0 ? lines - 1 : 0;  // less the header
+        }
+        case InputFormat::hl7v2:
+            return std::max<std::size_t>(1, count_of(bytes, "MSH"));
+        case InputFormat::astm:
+            return std::max<std::size_t>(1, count_of(bytes, "\rO|"));
+    }
+    return 1;
 }
 
-Processed process(InputItem&& item, const ProcessOptions& options) {
+Processed process(ReadItem&& item, const ProcessOptions& options) {
     Processed out;
     out.source = std::move(item.source);
-    auto read = neutral::read_any(item.bytes, out.source);
-    out.findings = std::move(read.findings);
-    if (!read.result) return out;
-    NeutralResult result = std::move(*read.result);
+    std::optional<NeutralResult> read_result;
+    if (item.read) {
+        out.findings = std::move(item.findings);
+        read_result = std::move(item.result);
+    } else {
+        auto read = neutral::read_any(item.bytes, out.source);
+        out.findings = std::move(read.findings);
+        read_result = std::move(read.result);
+        // The reader's findings travel in the result like every other.
+        if (read_result) add_unique(read_result->findings, std::vector<Finding>(out.findings));
+    }
+    if (!read_result) return out;
+    NeutralResult result = std::move(*read_result);
     prepare_result(result, options, quantity_table());
     // What the gateway writes follows the current schema version.
     result.schema_version = "1." + std::to_string(neutral::kSchemaMinor);

@@ -1,6 +1,6 @@
 // The conversion pipeline shared by `convert` and `check`: find the inputs,
-// read each result, normalize, validate for the target. Plain functions on
-// plain data; only input discovery and file reading touch the disk.
+// read each result (inputs.hpp), run the core's prepare_result on it. Plain
+// functions on plain data; only input discovery and reading touch the disk.
 #pragma once
 
 #include <filesystem>
@@ -9,16 +9,11 @@
 #include <string>
 #include <vector>
 
+#include "gateway/cli/inputs.hpp"
 #include "gateway/core/model.hpp"
 #include "gateway/core/prepare.hpp"
 
 namespace pftgw::cli {
-
-// One document to read: a file, or one line of a JSON Lines file.
-struct InputItem {
-    std::string source;  // "samples/lab/a.xml" or "archive.jsonl:17"
-    std::string bytes;
-};
 
 // What became of one input.
 struct Processed {
@@ -28,22 +23,18 @@ struct Processed {
     bool blocked() const { return !result || has_errors(findings); }
 };
 
-// Expands files and folders (recursively; .xml, .json, .jsonl; sorted) into
+// Expands files and folders (recursively, the files of `from`, sorted) into
 // a list of files. Missing paths are reported in `missing`.
 std::vector<std::filesystem::path> find_inputs(const std::vector<std::string>& args,
-                                               std::vector<std::string>& missing);
+                                               InputFormat from, std::vector<std::string>& missing);
 
-// Calls `fn` for every document in `file` (one for .xml/.json, one per line
-// for .jsonl). Returns false, with `error` set, when the file cannot be read.
-bool for_each_document(const std::filesystem::path& file,
-                       const std::function<void(InputItem&&)>& fn, std::string& error);
-
-// Counts documents without parsing them (lines of .jsonl, 1 otherwise).
-std::size_t count_documents(const std::filesystem::path& file);
+// Counts results without parsing them (an estimate for device dialects: for
+// the progress bar and the subfolder rule).
+std::size_t count_documents(const std::filesystem::path& file, InputFormat from);
 
 using ProcessOptions = PrepareOptions;
 
-// Reads one document, then runs the core's prepare_result() on it.
-Processed process(InputItem&& item, const ProcessOptions& options);
+// Reads one document (when not read yet), then runs prepare_result() on it.
+Processed process(ReadItem&& item, const ProcessOptions& options);
 
 }  // namespace pftgw::cli

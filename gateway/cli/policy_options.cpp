@@ -3,6 +3,8 @@
 
 #include <fmt/core.h>
 
+#include "adapters/profile/profile_loader.hpp"
+
 namespace pftgw::cli {
 
 void add_policy_options(CLI::App& sub, PolicyOptions& o) {
@@ -44,6 +46,51 @@ bool parse_policy(const PolicyOptions& o, ReferencePolicy& policy, const char* c
             return false;
         }
         policy.gli2012_group = *group;
+    }
+    return true;
+}
+
+void add_input_options(CLI::App& sub, InputOptions& o) {
+    sub.add_option("--from", o.from,
+                   "Input dialect: neutral (XML, JSON, JSON Lines), hl7v2 (ORU from devices), astm "
+                   "(E1394 records, raw or E1381-framed), csv (archive exports)")
+        ->capture_default_str();
+    sub.add_option("--profile", o.profile,
+                   "Device profile (TOML, schemas/device-profile.md): the device's codes, units, "
+                   "conditions, time zone; required for astm and csv");
+}
+
+bool make_input_context(const InputOptions& o, InputContext& context,
+                        std::optional<DeviceProfile>& storage, const char* command) {
+    auto from = parse_input_format(o.from);
+    if (!from) {
+        fmt::print(stderr, "pftgw {}: --from must be neutral, hl7v2, astm or csv, not '{}'\n",
+                   command, o.from);
+        return false;
+    }
+    context.from = *from;
+    if (o.profile.empty()) {
+        if (*from == InputFormat::astm || *from == InputFormat::csv) {
+            fmt::print(
+                stderr,
+                "pftgw {}: --from {} needs --profile FILE (which code means which quantity)\n",
+                command, o.from);
+            return false;
+        }
+        return true;
+    }
+    auto loaded = profile::load_profile_file(o.profile);
+    if (!loaded.ok()) {
+        for (const auto& e : loaded.errors)
+            fmt::print(stderr, "pftgw {}: {}\n", command, e.to_string());
+        return false;
+    }
+    storage = std::move(loaded.profile);
+    context.profile = &*storage;
+    if ((*from == InputFormat::csv) && !storage->csv) {
+        fmt::print(stderr, "pftgw {}: profile {} has no CSV layout ([csv] table) for --from csv\n",
+                   command, o.profile);
+        return false;
     }
     return true;
 }

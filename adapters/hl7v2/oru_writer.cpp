@@ -1,11 +1,21 @@
 // HL7 v2.5.1 ORU^R01 writer (see oru_writer.hpp for the layout and choices).
-// Appends into one std::string: no streams, no regex, numbers via std::to_chars.
+// One pass into the caller's std::string through a raw write pointer (Sink):
+// no streams, no temporary strings per field, numbers by integer scaling with
+// std::to_chars where rounding is close, the quantity table's codes and units
+// escaped once per process (KindCache), text escaping with a scan for the
+// first special byte before any byte-wise work.
 #include "adapters/hl7v2/oru_writer.hpp"
 
 #include <array>
 #include <charconv>
 #include <cmath>
-#include <cstdio>
+#include <cstdint>
+#include <cstring>
+#include <vector>
+
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
 
 #include "gateway/core/identity.hpp"
 #include "gateway/core/time.hpp"
@@ -16,7 +26,7 @@ namespace {
 constexpr char kSegmentEnd = '\r';  // HL7 2.5.1 ch. 2: segments end in CR
 
 // MSH-1 and MSH-2 (the default delimiters); written literally, never escaped.
-constexpr std::string_view kMshStart = "MSH|^~\\&";
+constexpr std::string_view kMshStart = "MSH|^~\\&|";
 constexpr std::string_view kMessageType = "ORU^R01^ORU_R01";  // MSH-9 (interop-facts.md)
 constexpr std::string_view kVersion = "2.5.1";                // MSH-12
 constexpr std::string_view kCharacterSet = "UNICODE UTF-8";   // MSH-18, table 0211
@@ -24,7 +34,7 @@ constexpr std::string_view kCharacterSet = "UNICODE UTF-8";   // MSH-18, table 0
 // OBR-4 per test. LOINC 81459-0 is the spirometry panel (lung-function-facts.md,
 // "Codes"). That file names only it and the whole-PFT panel 81458-2, so lung
 // volumes and diffusing capacity get project codes in 99PFTGW rather than a
-// borrowed number.
+// borrowed number (schemas/README.md, "Codes that are not quantities").
 struct PanelCode {
     std::string_view code;
     std::string_view display;
@@ -48,15 +58,10 @@ constexpr std::string_view kCaution =
     "ULN). z-score bands -1.645 / -2.5 / -4.0 (Stanojevic 2022) are text for staff, "
     "never flags.";
 
-// HL7 v2 escape sequences (2.5.1 ch. 2, "Escape sequences supporting multiple
-// character sets"; interop-facts.md V).
-void append_hex_escape(unsigned char c, std::string& out) {
-    static constexpr char kHex[] = "0123456789ABCDEF";
-    out += "\\X";
-    out += kHex[c >> 4];
-    out += kHex[c & 0x0F];
-    out += '\\';
-}
+// Worst-case growth of escaped text: one byte becomes "\Xhh\" (5 bytes).
+constexpr std::size_t kEscapeGrowth = 5;
+// Room for one number: to_chars of a double with up to 17 decimals fits in 64.
+constexpr std::size_t kNumberRoom = 64;
 
 // One lookup per byte: the delimiters, the escape character and control bytes.
 constexpr std::array<bool, 256> kNeedsEscape = [] {
@@ -71,18 +76,122 @@ bool needs_escape(unsigned char c) {
     return kNeedsEscape[c];
 }
 
-void append_text(std::string_view text, std::string& out) {
+constexpr bool has_special(std::string_view text) {
+    for (char c : text)
+        if (kNeedsEscape[static_cast<unsigned char>(c)]) return true;
+    return false;
+}
+static_assert(!has_special(kCaution), "kCaution is written without escaping");
+
+// Index of the first byte that needs an escape, or text.size().
+std::size_t first_special(const char* p, std::size_t n) {
+    std::size_t i = 0;
+#if defined(__SSE2__)
+    // 16 bytes at a time: control bytes (<= 0x1F, unsigned), DEL and | ^ & ~ \.
+    const __m128i max_control = _mm_set1_epi8(0x1F);
+    const __m128i pipe = _mm_set1_epi8('|');
+    const __m128i caret = _mm_set1_epi8('^');
+    const __m128i amp = _mm_set1_epi8('&');
+    const __m128i tilde = _mm_set1_epi8('~');
+    const __m128i backslash = _mm_set1_epi8('\\');
+    const __m128i del = _mm_set1_epi8(0x7F);
+    for (; i + 16 <= n; i += 16) {
+        const __m128i x = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p + i));
+        __m128i hit = _mm_cmpeq_epi8(_mm_min_epu8(x, max_control), x);
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, pipe));
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, caret));
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, amp));
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, tilde));
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, backslash));
+        hit = _mm_or_si128(hit, _mm_cmpeq_epi8(x, del));
+        const int mask = _mm_movemask_epi8(hit);
+        if (mask != 0) return i + static_cast<std::size_t>(__builtin_ctz(mask));
+    }
+#endif
+    for (; i < n; ++i)
+        if (needs_escape(static_cast<unsigned char>(p[i]))) return i;
+    return n;
+}
+
+// HL7 v2 escape sequences (2.5.1 ch. 2, "Escape sequences supporting multiple
+// character sets"; interop-facts.md V). Writes at `w`, returns the new end;
+// the caller has room for kEscapeGrowth bytes per input byte.
+char* write_escaped(std::string_view text, char* w) {
+    static constexpr char kHex[] = "0123456789ABCDEF";
+    const char* p = text.data();
+    const std::size_t n = text.size();
+    std::size_t i = first_special(p, n);
+    std::memcpy(w, p, i);
+    w += i;
+    for (; i < n; ++i) {
+        const auto c = static_cast<unsigned char>(p[i]);
+        if (!needs_escape(c)) {
+            *w++ = static_cast<char>(c);
+            continue;
+        }
+        *w++ = '\\';
+        switch (c) {
+            case '|':
+                *w++ = 'F';
+                break;
+            case '^':
+                *w++ = 'S';
+                break;
+            case '&':
+                *w++ = 'T';
+                break;
+            case '~':
+                *w++ = 'R';
+                break;
+            case '\\':
+                *w++ = 'E';
+                break;
+            default:
+                *w++ = 'X';
+                *w++ = kHex[c >> 4];
+                *w++ = kHex[c & 0x0F];
+                break;
+        }
+        *w++ = '\\';
+    }
+    return w;
+}
+
+std::string escaped_copy(std::string_view text) {
+    std::string out;
     append_escaped(text, out);
+    return out;
 }
 
-void append_int(long long v, std::string& out) {
-    char buf[24];
-    auto r = std::to_chars(buf, buf + sizeof buf, v);
-    out.append(buf, r.ptr);
+// ---- numbers ----
+
+constexpr int kMaxFastDecimals = 9;
+constexpr std::array<double, kMaxFastDecimals + 1> kPow10{1e0, 1e1, 1e2, 1e3, 1e4,
+                                                          1e5, 1e6, 1e7, 1e8, 1e9};
+constexpr std::array<long long, kMaxFastDecimals + 1> kPow10Int{
+    1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000, 1000000000};
+// Below 2^30 the product v x 10^d is within 2^-22 of the exact decimal; a
+// fraction this far from one half cannot round the other way, so the integer
+// agrees with std::to_chars' exact rounding. Closer to a tie, to_chars decides.
+constexpr double kFastScaledLimit = 1073741824.0;  // 2^30
+constexpr double kTieMargin = 1e-4;
+
+// v rounded to `decimals` places as an integer count of 10^-decimals, exactly
+// as std::to_chars(fixed, decimals) rounds it; false when the fast path does not
+// apply (the caller then uses to_chars itself).
+bool fast_scaled(double v, int decimals, long long& n) {
+    if (decimals < 0 || decimals > kMaxFastDecimals) return false;
+    const double s = v * kPow10[static_cast<std::size_t>(decimals)];
+    if (!(std::fabs(s) < kFastScaledLimit)) return false;
+    const double f = std::floor(s);
+    const double frac = s - f;
+    if (std::fabs(frac - 0.5) < kTieMargin) return false;
+    n = static_cast<long long>(frac > 0.5 ? f + 1 : f);
+    return true;
 }
 
-// Fixed decimals; "-0.00" becomes "0.00" (a bare NM, no signed zero).
-std::size_t format_fixed(double v, int decimals, char* buf, std::size_t size) {
+// Fixed decimals via to_chars; "-0.00" becomes "0.00" (a bare NM, no signed zero).
+std::size_t format_fixed_slow(double v, int decimals, char* buf, std::size_t size) {
     auto r = std::to_chars(buf, buf + size, v, std::chars_format::fixed, decimals);
     std::size_t n = static_cast<std::size_t>(r.ptr - buf);
     if (n > 1 && buf[0] == '-') {
@@ -97,57 +206,251 @@ std::size_t format_fixed(double v, int decimals, char* buf, std::size_t size) {
     return n;
 }
 
-void append_fixed(double v, int decimals, std::string& out) {
-    char buf[64];
-    out.append(buf, format_fixed(v, decimals, buf, sizeof buf));
+// Writes a scaled integer as a fixed decimal; no sign for zero.
+char* write_scaled(long long n, int decimals, char* w) {
+    if (n < 0) {
+        *w++ = '-';
+        n = -n;
+    }
+    const long long scale = kPow10Int[static_cast<std::size_t>(decimals)];
+    const long long whole = n / scale;
+    long long frac = n % scale;
+    w = std::to_chars(w, w + 24, whole).ptr;
+    if (decimals > 0) {
+        *w++ = '.';
+        for (int i = decimals - 1; i >= 0; --i) {
+            w[i] = static_cast<char>('0' + frac % 10);
+            frac /= 10;
+        }
+        w += decimals;
+    }
+    return w;
 }
 
+// At most kNumberRoom bytes.
+char* write_fixed(double v, int decimals, char* w) {
+    long long n = 0;
+    if (fast_scaled(v, decimals, n)) return write_scaled(n, decimals, w);
+    return w + format_fixed_slow(v, decimals, w, kNumberRoom);
+}
+
+// The displayed value as the double it reads back as (for the flag comparison).
 double rounded(double v, int decimals) {
-    char buf[64];
-    const std::size_t n = format_fixed(v, decimals, buf, sizeof buf);
+    long long n = 0;
+    if (fast_scaled(v, decimals, n))
+        return static_cast<double>(n) / kPow10[static_cast<std::size_t>(decimals)];
+    char buf[kNumberRoom];
+    const std::size_t len = format_fixed_slow(v, decimals, buf, sizeof buf);
     double back = v;
-    std::from_chars(buf, buf + n, back);
+    std::from_chars(buf, buf + len, back);
     return back;
 }
 
-void append_2(int v, std::string& out) {
-    out += static_cast<char>('0' + (v / 10) % 10);
-    out += static_cast<char>('0' + v % 10);
-}
+// ---- the write pointer ----
 
-void append_date(const Date& d, std::string& out) {
-    char buf[8];
+// Appends to the caller's string through a raw pointer: room is made per item
+// (need), the string is trimmed to what was written at the end (finish).
+class Sink {
+public:
+    // `room`: the bytes expected; resize() zero-fills, so the string is grown
+    // by that much, not to its whole capacity.
+    Sink(std::string& s, std::size_t room) : s_(s) {
+        const std::size_t used = s_.size();
+        s_.resize(used + room);
+        w_ = s_.data() + used;
+        end_ = s_.data() + s_.size();
+    }
+    Sink(const Sink&) = delete;
+    Sink& operator=(const Sink&) = delete;
+
+    void finish() { s_.resize(static_cast<std::size_t>(w_ - s_.data())); }
+
+    void put(char c) {
+        need(1);
+        *w_++ = c;
+    }
+    void put(std::string_view text) {
+        need(text.size());
+        std::memcpy(w_, text.data(), text.size());
+        w_ += text.size();
+    }
+    void text(std::string_view t) {
+        need(t.size() * kEscapeGrowth);
+        w_ = write_escaped(t, w_);
+    }
+    void integer(long long v) {
+        need(24);
+        w_ = std::to_chars(w_, w_ + 24, v).ptr;
+    }
+    void fixed(double v, int decimals) {
+        need(kNumberRoom);
+        w_ = write_fixed(v, decimals, w_);
+    }
+    void two_digits(int v) {
+        need(2);
+        *w_++ = static_cast<char>('0' + (v / 10) % 10);
+        *w_++ = static_cast<char>('0' + v % 10);
+    }
+
+private:
+    void need(std::size_t n) {
+        if (static_cast<std::size_t>(end_ - w_) < n) grow(n);
+    }
+    void grow(std::size_t n) {
+        constexpr std::size_t kMinGrowth = 4096;
+        const std::size_t used = static_cast<std::size_t>(w_ - s_.data());
+        std::size_t size = s_.size() + s_.size() / 2;
+        if (size < used + n) size = used + n;
+        if (size < used + kMinGrowth) size = used + kMinGrowth;
+        s_.resize(size);
+        w_ = s_.data() + used;
+        end_ = s_.data() + s_.size();
+    }
+
+    std::string& s_;
+    char* w_ = nullptr;
+    char* end_ = nullptr;
+};
+
+void put_date(const Date& d, Sink& out) {
     const int y = d.year;
-    buf[0] = static_cast<char>('0' + (y / 1000) % 10);
-    buf[1] = static_cast<char>('0' + (y / 100) % 10);
-    buf[2] = static_cast<char>('0' + (y / 10) % 10);
-    buf[3] = static_cast<char>('0' + y % 10);
-    out.append(buf, 4);
-    append_2(d.month, out);
-    append_2(d.day, out);
+    out.two_digits(y / 100);
+    out.two_digits(y % 100);
+    out.two_digits(d.month);
+    out.two_digits(d.day);
 }
 
 // Same form as core's to_hl7_ts (YYYYMMDDHHMMSS[.SSS]+ZZZZ, offset always),
 // without a temporary string.
-void append_ts(const Timestamp& t, std::string& out) {
-    append_date(t.date, out);
-    append_2(t.hour, out);
-    append_2(t.minute, out);
-    append_2(t.second, out);
+void put_ts(const Timestamp& t, Sink& out) {
+    put_date(t.date, out);
+    out.two_digits(t.hour);
+    out.two_digits(t.minute);
+    out.two_digits(t.second);
     if (t.millisecond != 0) {
-        out += '.';
-        out += static_cast<char>('0' + (t.millisecond / 100) % 10);
-        append_2(t.millisecond % 100, out);
+        out.put('.');
+        out.put(static_cast<char>('0' + (t.millisecond / 100) % 10));
+        out.two_digits(t.millisecond % 100);
     }
     const int off = t.offset_minutes < 0 ? -t.offset_minutes : t.offset_minutes;
-    out += t.offset_minutes < 0 ? '-' : '+';
-    append_2(off / 60, out);
-    append_2(off % 60, out);
+    out.put(t.offset_minutes < 0 ? '-' : '+');
+    out.two_digits(off / 60);
+    out.two_digits(off % 60);
 }
 
-void append_opt_ts(const Timestamp* t, std::string& out) {
-    if (t) append_ts(*t, out);
+// ---- the quantity table, escaped once ----
+
+enum VariantSlot : std::size_t { kPred, kLln, kUln, kZ, kPctPred, kVariantSlots };
+struct VariantName {
+    std::string_view variant;
+    std::string_view suffix;
+    bool own_unit;  // z and percent have their own unit; the rest the quantity's
+};
+constexpr std::array<VariantName, kVariantSlots> kVariants{{
+    {"predicted", ".pred", false},
+    {"lln", ".lln", false},
+    {"uln", ".uln", false},
+    {"z", ".z", true},
+    {"percent_predicted", ".pctpred", true},
+}};
+
+std::string_view hl7_coding_system(const QuantityKind& k) {
+    return k.code_system == "LN" ? std::string_view("LN") : kProjectHl7CodingSystem;
 }
+
+// What the writer needs of one table row, escaped and looked up once.
+struct KindInfo {
+    const QuantityKind* kind = nullptr;
+    std::string ce;                             // OBX-3: code^display^system, escaped
+    std::array<std::string, 2> unit_ce;         // OBX-6 for the si / traditional unit, escaped
+    std::array<int, kVariantSlots> variants{};  // row index of FEV1.pred ...; -1 none
+};
+
+std::size_t system_index(UnitSystem s) {
+    return s == UnitSystem::si ? 0 : 1;
+}
+
+void put_unit_ce(std::string_view unit, std::string& out) {
+    if (unit.empty()) return;
+    append_escaped(unit, out);
+    out += '^';
+    append_escaped(unit, out);
+    out += "^UCUM";
+}
+
+// Kind key -> row, by an open-addressing hash (FNV-1a) over the table's keys.
+class KindCache {
+public:
+    explicit KindCache(const QuantityTable& table) : table_(table) {
+        const auto& rows = table.rows();
+        info_.resize(rows.size());
+        std::size_t slots = 16;
+        while (slots < rows.size() * 4) slots *= 2;
+        slots_.assign(slots, -1);
+        for (std::size_t i = 0; i < rows.size(); ++i) {
+            const QuantityKind& k = rows[i];
+            KindInfo& info = info_[i];
+            info.kind = &k;
+            info.ce = escaped_copy(k.code) + '^' + escaped_copy(k.display) + '^' +
+                      std::string(hl7_coding_system(k));
+            put_unit_ce(k.unit_for(UnitSystem::si), info.unit_ce[0]);
+            put_unit_ce(k.unit_for(UnitSystem::traditional), info.unit_ce[1]);
+            std::size_t h = hash(k.key) & (slots - 1);
+            while (slots_[h] >= 0) h = (h + 1) & (slots - 1);
+            slots_[h] = static_cast<int>(i);
+        }
+        for (std::size_t i = 0; i < rows.size(); ++i)
+            for (std::size_t v = 0; v < kVariantSlots; ++v) {
+                const QuantityKind* vk = variant_row(rows[i].base, kVariants[v]);
+                info_[i].variants[v] = vk ? static_cast<int>(vk - rows.data()) : -1;
+            }
+    }
+
+    const KindInfo* find(std::string_view key) const {
+        const std::size_t mask = slots_.size() - 1;
+        for (std::size_t h = hash(key) & mask;; h = (h + 1) & mask) {
+            const int i = slots_[h];
+            if (i < 0) return nullptr;
+            if (info_[static_cast<std::size_t>(i)].kind->key == key)
+                return &info_[static_cast<std::size_t>(i)];
+        }
+    }
+    const KindInfo& at(int row) const { return info_[static_cast<std::size_t>(row)]; }
+
+    // The variant row of an unknown base kind (not in the table): the table's own scan.
+    const QuantityKind* variant_row(std::string_view base, const VariantName& v) const {
+        // By the table's key convention first (FEV1 + .pred), confirmed against base/variant.
+        std::string key(base);
+        key += v.suffix;
+        const QuantityKind* k = table_.find(key);
+        if (k && k->base == base && k->variant == v.variant) return k;
+        return table_.variant_of(base, v.variant);
+    }
+
+private:
+    static std::size_t hash(std::string_view s) {
+        constexpr std::uint64_t kFnvOffset = 14695981039346656037ull;  // FNV-1a 64-bit
+        constexpr std::uint64_t kFnvPrime = 1099511628211ull;
+        std::uint64_t h = kFnvOffset;
+        for (char c : s) h = (h ^ static_cast<unsigned char>(c)) * kFnvPrime;
+        return static_cast<std::size_t>(h);
+    }
+
+    const QuantityTable& table_;
+    std::vector<KindInfo> info_;
+    std::vector<int> slots_;
+};
+
+// The compiled-in table lives for the whole process: its cache is built once.
+// Any other table gets a cache for the one message.
+const KindCache* shared_cache_for(const QuantityTable& table) {
+    const QuantityTable& compiled = quantity_table();
+    if (&table != &compiled) return nullptr;
+    static const KindCache cache(compiled);
+    return &cache;
+}
+
+// ---- fields ----
 
 // PID-8 from table 0001 (M, F, U): administrative gender when the record has
 // one, else sex at birth.
@@ -179,19 +482,19 @@ constexpr char kStatusCannotObtain = 'X';  // table 0085
 
 // CX-4 assigning authority as HD: "urn:oid:" -> &oid&ISO; another URI -> &uri&URI;
 // anything else is a local namespace id.
-void append_assigning_authority(std::string_view system, std::string& out) {
+void put_assigning_authority(std::string_view system, Sink& out) {
     constexpr std::string_view kOidPrefix = "urn:oid:";
     if (system.empty()) return;
     if (system.substr(0, kOidPrefix.size()) == kOidPrefix) {
-        out += '&';
-        append_text(system.substr(kOidPrefix.size()), out);
-        out += "&ISO";
+        out.put('&');
+        out.text(system.substr(kOidPrefix.size()));
+        out.put("&ISO");
     } else if (system.find(':') != std::string_view::npos) {
-        out += '&';
-        append_text(system, out);
-        out += "&URI";
+        out.put('&');
+        out.text(system);
+        out.put("&URI");
     } else {
-        append_text(system, out);
+        out.text(system);
     }
 }
 
@@ -204,34 +507,6 @@ const PanelCode& panel_for(TestType t) {
         default:
             return kDiffusingPanel;
     }
-}
-
-void append_ce(std::string_view code, std::string_view display, std::string_view system,
-               std::string& out) {
-    append_text(code, out);
-    out += '^';
-    append_text(display, out);
-    out += '^';
-    out += system;
-}
-
-std::string_view hl7_coding_system(const QuantityKind& k) {
-    return k.code_system == "LN" ? std::string_view("LN") : kProjectHl7CodingSystem;
-}
-
-// The variant row (FEV1.pred, ...): first by the table's key convention
-// (binary search), confirmed against base/variant; else the table's own scan.
-const QuantityKind* variant_row(const QuantityTable& table, std::string_view base,
-                                std::string_view variant, std::string_view key_suffix) {
-    char buf[64];
-    if (base.size() + key_suffix.size() <= sizeof buf) {
-        std::size_t n = 0;
-        for (char c : base) buf[n++] = c;
-        for (char c : key_suffix) buf[n++] = c;
-        const QuantityKind* k = table.find(std::string_view(buf, n));
-        if (k && k->base == base && k->variant == variant) return k;
-    }
-    return table.variant_of(base, variant);
 }
 
 // Where a finding belongs, from its path "tests[i]" or "tests[i].values[KIND]...".
@@ -258,12 +533,34 @@ FindingPlace place_of(std::string_view path) {
     return p;
 }
 
+// Bytes a message of this result needs at most, roughly: reserving it up front
+// keeps the string from growing while the message is written.
+std::size_t size_estimate(const NeutralResult& r) {
+    constexpr std::size_t kPerMessage = 1024;
+    constexpr std::size_t kPerTest = 1024;
+    constexpr std::size_t kPerValue = 160;
+    constexpr std::size_t kPerReference = 5 * 120;
+    constexpr std::size_t kPerFinding = 256;
+    std::size_t n = kPerMessage + kPerFinding * r.findings.size();
+    for (const auto& t : r.tests) {
+        n += kPerTest;
+        for (const auto& q : t.values) n += kPerValue + kPerReference * q.reference.size();
+    }
+    return n;
+}
+
 class Writer {
 public:
-    Writer(const NeutralResult& r, const OruOptions& o, const QuantityTable& t, std::string& out)
-        : result_(r), options_(o), table_(t), out_(out), status_(result_status(r)) {}
+    Writer(const NeutralResult& r, const OruOptions& o, const KindCache& cache, Sink& out)
+        : result_(r),
+          options_(o),
+          cache_(cache),
+          out_(out),
+          status_(result_status(r)),
+          units_(system_index(o.units)) {}
 
     void write() {
+        place_findings();
         write_msh();
         write_pid();
         for (std::size_t i = 0; i < result_.tests.size(); ++i)
@@ -272,76 +569,77 @@ public:
 
 private:
     void write_msh() {
-        out_ += kMshStart;
-        out_ += '|';
-        append_text(options_.sending_application, out_);
-        out_ += '|';
-        append_text(options_.sending_facility, out_);
-        out_ += '|';
-        append_text(options_.receiving_application, out_);
-        out_ += '|';
-        append_text(options_.receiving_facility, out_);
-        out_ += '|';
+        out_.put(kMshStart);
+        out_.text(options_.sending_application);
+        out_.put('|');
+        out_.text(options_.sending_facility);
+        out_.put('|');
+        out_.text(options_.receiving_application);
+        out_.put('|');
+        out_.text(options_.receiving_facility);
+        out_.put('|');
         write_message_time();
-        out_ += "||";  // MSH-8 security: empty
-        out_ += kMessageType;
-        out_ += '|';
-        const std::string id = result_.id.empty() ? result_identifier(result_) : result_.id;
-        out_ += hl7_control_id(id, result_.revision, options_.target);
-        out_ += '|';
-        out_ += options_.processing_id;
-        out_ += '|';
-        out_ += kVersion;
-        out_ += "||||||";  // MSH-13..17 empty: original acknowledgment mode
-        out_ += kCharacterSet;
-        out_ += kSegmentEnd;
+        out_.put("||");  // MSH-8 security: empty
+        out_.put(kMessageType);
+        out_.put('|');
+        const std::string control_id =
+            hl7_control_id(result_.id.empty() ? result_identifier(result_) : result_.id,
+                           result_.revision, options_.target);
+        out_.put(control_id);
+        out_.put('|');
+        out_.put(options_.processing_id);
+        out_.put('|');
+        out_.put(kVersion);
+        out_.put("||||||");  // MSH-13..17 empty: original acknowledgment mode
+        out_.put(kCharacterSet);
+        out_.put(kSegmentEnd);
     }
 
     void write_message_time() {
         if (!options_.message_time_iso.empty()) {
             auto t = parse_iso_timestamp(options_.message_time_iso);
             if (t) {
-                append_ts(*t, out_);
+                put_ts(*t, out_);
                 return;
             }
         }
         if (result_.session_time) {
-            append_ts(*result_.session_time, out_);
+            put_ts(*result_.session_time, out_);
             return;
         }
         for (const auto& test : result_.tests)
             if (test.time) {
-                append_ts(*test.time, out_);
+                put_ts(*test.time, out_);
                 return;
             }
     }
 
     void write_pid() {
         const Subject& s = result_.subject;
-        out_ += "PID|1||";
+        out_.put("PID|1||");
         bool first = true;
         for (const auto& id : s.identifiers) {
-            if (!first) out_ += '~';
+            if (!first) out_.put('~');
             first = false;
-            append_text(id.value, out_);
-            out_ += "^^^";
-            append_assigning_authority(id.system, out_);
+            out_.text(id.value);
+            out_.put("^^^");
+            put_assigning_authority(id.system, out_);
             if (!id.type.empty()) {
-                out_ += '^';
-                append_text(id.type, out_);
+                out_.put('^');
+                out_.text(id.type);
             }
         }
-        out_ += "||";
-        append_text(s.family_name, out_);
+        out_.put("||");
+        out_.text(s.family_name);
         if (!s.given_name.empty()) {
-            out_ += '^';
-            append_text(s.given_name, out_);
+            out_.put('^');
+            out_.text(s.given_name);
         }
-        out_ += "||";
-        if (s.birth_date) append_date(*s.birth_date, out_);
-        out_ += '|';
-        out_ += administrative_sex(s);
-        out_ += kSegmentEnd;
+        out_.put("||");
+        if (s.birth_date) put_date(*s.birth_date, out_);
+        out_.put('|');
+        out_.put(administrative_sex(s));
+        out_.put(kSegmentEnd);
     }
 
     const Timestamp* time_of(const Test& t) const {
@@ -353,294 +651,336 @@ private:
     void write_test(int index, const Test& test) {
         const Order& order = result_.order;
         const Timestamp* when = time_of(test);
+        build_obx_tail(when);
 
-        out_ += "ORC|RE|";
-        append_text(order.placer_number, out_);
-        out_ += '|';
-        append_text(order.filler_number, out_);
-        out_ += kSegmentEnd;
+        out_.put("ORC|RE|");
+        out_.text(order.placer_number);
+        out_.put('|');
+        out_.text(order.filler_number);
+        out_.put(kSegmentEnd);
 
-        out_ += "OBR|";
-        append_int(index + 1, out_);
-        out_ += '|';
-        append_text(order.placer_number, out_);
-        out_ += '|';
-        append_text(order.filler_number, out_);
-        out_ += '|';
+        out_.put("OBR|");
+        out_.integer(index + 1);
+        out_.put('|');
+        out_.text(order.placer_number);
+        out_.put('|');
+        out_.text(order.filler_number);
+        out_.put('|');
         const PanelCode& panel = panel_for(test.type);
-        append_ce(panel.code, panel.display, panel.system, out_);
-        out_ += "|||";  // OBR-5, OBR-6
-        append_opt_ts(when, out_);
+        out_.text(panel.code);
+        out_.put('^');
+        out_.text(panel.display);
+        out_.put('^');
+        out_.put(panel.system);
+        out_.put("|||");  // OBR-5, OBR-6
+        if (when) put_ts(*when, out_);
         // OBR-18 placer field 1 carries the accession number (common practice).
-        out_ += "|||||||||||";
-        append_text(order.accession_number, out_);
-        out_ += "||||||";  // OBR-19..23
-        out_ += kServiceSection;
-        out_ += '|';
-        out_ += status_;
-        out_ += kSegmentEnd;
+        out_.put("|||||||||||");
+        out_.text(order.accession_number);
+        out_.put("||||||");  // OBR-19..23
+        out_.put(kServiceSection);
+        out_.put('|');
+        out_.put(status_);
+        out_.put(kSegmentEnd);
 
         nte_set_ = 0;
         write_test_context_note(test);
         for (const auto& c : test.comments) write_nte(kNoteFromLab, c);
         write_findings(index, {});
-        write_nte(kNoteFromGateway, kCaution);
+        begin_nte(kNoteFromGateway);
+        out_.put(kCaution);
+        out_.put(kSegmentEnd);
 
         obx_set_ = 0;
-        for (const auto& q : test.values) write_quantity(index, q, when);
+        for (const auto& q : test.values) write_quantity(index, q);
     }
 
     // Method, device and gas conditions, so a reader of the message alone knows
     // how the numbers were taken and at which condition they are expressed.
     void write_test_context_note(const Test& test) {
-        note_.clear();
+        begin_nte(kNoteFromGateway);
         if (!test.method.empty()) {
-            note_ += "Method: ";
-            note_ += test.method;
-            note_ += ". ";
+            out_.put("Method: ");
+            out_.text(test.method);
+            out_.put(". ");
         }
         const Device& d = result_.device;
-        note_ += "Device ";
-        note_ += d.id;
+        out_.put("Device ");
+        out_.text(d.id);
         if (!d.manufacturer.empty() || !d.model.empty()) {
-            note_ += ": ";
-            note_ += d.manufacturer;
-            if (!d.manufacturer.empty() && !d.model.empty()) note_ += ' ';
-            note_ += d.model;
+            out_.put(": ");
+            out_.text(d.manufacturer);
+            if (!d.manufacturer.empty() && !d.model.empty()) out_.put(' ');
+            out_.text(d.model);
         }
         if (!d.serial_number.empty()) {
-            note_ += ", serial ";
-            note_ += d.serial_number;
+            out_.put(", serial ");
+            out_.text(d.serial_number);
         }
         if (!d.software_version.empty()) {
-            note_ += ", software ";
-            note_ += d.software_version;
+            out_.put(", software ");
+            out_.text(d.software_version);
         }
-        note_ += ". Units: ";
-        note_ += to_string(options_.units);
-        note_ += '.';
+        out_.put(". Units: ");
+        out_.text(to_string(options_.units));
+        out_.put('.');
         constexpr std::array<GasCondition, 4> kGas{GasCondition::btps, GasCondition::stpd,
                                                    GasCondition::atps, GasCondition::atpd};
         for (GasCondition g : kGas) {
             bool any = false;
             for (const auto& q : test.values) {
                 if (q.condition != g) continue;
-                note_ += any ? ", " : " At ";
-                if (!any) {
-                    note_ += to_string(g);
-                    note_ += ": ";
+                if (any) {
+                    out_.put(", ");
+                } else {
+                    out_.put(" At ");
+                    out_.text(to_string(g));
+                    out_.put(": ");
                 }
-                note_ += q.kind;
+                out_.text(q.kind);
                 any = true;
             }
-            if (any) note_ += '.';
+            if (any) out_.put('.');
         }
-        write_nte(kNoteFromGateway, note_);
+        out_.put(kSegmentEnd);
     }
 
-    // Where a finding is written: under the value its path names, else under
-    // the test it names, else under the first test, so every finding travels.
-    FindingPlace home_of(const Finding& f) const {
-        FindingPlace p = place_of(f.path);
-        if (p.test < 0 || p.test >= static_cast<int>(result_.tests.size())) return {0, {}};
-        if (!p.kind.empty() && !result_.tests[static_cast<std::size_t>(p.test)].find(p.kind))
-            p.kind = {};
-        return p;
-    }
-
-    // Warning and error findings as NTE (info findings are for `check` only).
-    // kind empty: the findings of the test itself.
-    void write_findings(int test_index, std::string_view kind) {
+    // Where each finding is written: under the value its path names, else
+    // under the test it names, else under the first test, so every finding travels.
+    void place_findings() {
+        homes_.clear();
+        homes_.reserve(result_.findings.size());
         for (const auto& f : result_.findings) {
-            if (f.severity == Severity::info) continue;
-            const FindingPlace home = home_of(f);
-            if (home.test != test_index || home.kind != kind) continue;
-            note_.clear();
-            note_ += f.severity == Severity::error ? "Error " : "Warning ";
-            note_ += f.rule;
-            if (!f.path.empty()) {
-                note_ += " at ";
-                note_ += f.path;
+            FindingPlace p = place_of(f.path);
+            if (p.test < 0 || p.test >= static_cast<int>(result_.tests.size())) {
+                p = {0, {}};
+            } else if (!p.kind.empty() &&
+                       !result_.tests[static_cast<std::size_t>(p.test)].find(p.kind)) {
+                p.kind = {};
             }
-            note_ += ": ";
-            note_ += f.message;
-            if (!f.values.empty()) {
-                note_ += " (";
-                for (std::size_t i = 0; i < f.values.size(); ++i) {
-                    if (i) note_ += "; ";
-                    note_ += f.values[i].first;
-                    note_ += '=';
-                    note_ += f.values[i].second;
-                }
-                note_ += ')';
-            }
-            write_nte(kNoteFromGateway, note_);
+            if (f.severity == Severity::info) p.test = -1;  // info findings are for `check` only
+            homes_.push_back(p);
         }
+    }
+
+    // The findings placed at (test, kind) as NTE; kind empty: the test itself.
+    void write_findings(int test_index, std::string_view kind) {
+        for (std::size_t i = 0; i < homes_.size(); ++i) {
+            const FindingPlace& home = homes_[i];
+            if (home.test != test_index || home.kind != kind) continue;
+            const Finding& f = result_.findings[i];
+            begin_nte(kNoteFromGateway);
+            out_.put(f.severity == Severity::error ? std::string_view("Error ")
+                                                   : std::string_view("Warning "));
+            out_.text(f.rule);
+            if (!f.path.empty()) {
+                out_.put(" at ");
+                out_.text(f.path);
+            }
+            out_.put(": ");
+            out_.text(f.message);
+            if (!f.values.empty()) {
+                out_.put(" (");
+                for (std::size_t v = 0; v < f.values.size(); ++v) {
+                    if (v) out_.put("; ");
+                    out_.text(f.values[v].first);
+                    out_.put('=');
+                    out_.text(f.values[v].second);
+                }
+                out_.put(')');
+            }
+            out_.put(kSegmentEnd);
+        }
+    }
+
+    // NTE-1..2 and the separator before NTE-3; the caller writes the text and CR.
+    void begin_nte(std::string_view source) {
+        out_.put("NTE|");
+        out_.integer(++nte_set_);
+        out_.put('|');
+        out_.put(source);
+        out_.put('|');
     }
 
     void write_nte(std::string_view source, std::string_view text) {
-        out_ += "NTE|";
-        append_int(++nte_set_, out_);
-        out_ += '|';
-        out_ += source;
-        out_ += '|';
-        append_text(text, out_);
-        out_ += kSegmentEnd;
+        begin_nte(source);
+        out_.text(text);
+        out_.put(kSegmentEnd);
     }
 
-    void write_quantity(int test_index, const Quantity& q, const Timestamp* when) {
-        const QuantityKind* kind = table_.find(q.kind);
+    void write_quantity(int test_index, const Quantity& q) {
+        const KindInfo* info = cache_.find(q.kind);
+        const QuantityKind* kind = info ? info->kind : nullptr;
         const int decimals = kind ? kind->decimals_for(options_.units) : 2;
         const bool present = q.value.has_value() && std::isfinite(*q.value);
         const ReferenceValues* first_ref = q.reference.empty() ? nullptr : &q.reference.front();
 
-        begin_obx(present, kind, q.kind, {});
-        if (present) append_fixed(*q.value, decimals, out_);
-        out_ += '|';
-        append_unit(q.unit);
-        out_ += '|';
-        if (present && first_ref) append_range(*first_ref, decimals);
-        out_ += '|';
+        begin_obx(present, info, q.kind, {});
+        if (present) out_.fixed(*q.value, decimals);
+        out_.put('|');
+        put_unit(q.unit, info);
+        out_.put('|');
+        if (present && first_ref) put_range(*first_ref, decimals);
+        out_.put('|');
         if (present && first_ref)
-            out_ += abnormal_flag(*q.value, first_ref->lln, first_ref->uln, decimals);
-        end_obx(present ? status_ : kStatusCannotObtain, when);
+            out_.put(abnormal_flag(*q.value, first_ref->lln, first_ref->uln, decimals));
+        end_obx(present ? status_ : kStatusCannotObtain);
 
         nte_set_ = 0;
         if (!present) {
-            note_.assign("Not reported: ");
-            note_ += q.absent_reason ? *q.absent_reason : std::string("no value");
-            write_nte(kNoteFromLab, note_);
+            begin_nte(kNoteFromLab);
+            out_.put("Not reported: ");
+            out_.text(q.absent_reason ? std::string_view(*q.absent_reason)
+                                      : std::string_view("no value"));
+            out_.put(kSegmentEnd);
         }
         if (q.origin == Origin::gateway) {
-            note_.assign("Computed by the gateway");
+            begin_nte(kNoteFromGateway);
+            out_.put("Computed by the gateway");
             for (std::size_t i = 0; i < q.derived_from.size(); ++i) {
-                note_ += i ? ", " : " from ";
-                note_ += q.derived_from[i];
+                out_.put(i ? std::string_view(", ") : std::string_view(" from "));
+                out_.text(q.derived_from[i]);
             }
-            note_ += '.';
-            write_nte(kNoteFromGateway, note_);
+            out_.put('.');
+            out_.put(kSegmentEnd);
         }
         for (std::size_t i = 0; i < q.reference.size(); ++i) write_reference_note(q, i);
         write_findings(test_index, q.kind);
 
         for (std::size_t i = 0; i < q.reference.size(); ++i)
-            write_reference_values(q, kind, q.reference[i], static_cast<int>(i + 1), decimals,
-                                   when);
+            write_reference_values(q, info, q.reference[i], static_cast<int>(i + 1), decimals);
     }
 
     void write_reference_note(const Quantity& q, std::size_t i) {
         const ReferenceValues& r = q.reference[i];
-        note_.assign("Reference set ");
-        char buf[16];
-        auto res = std::to_chars(buf, buf + sizeof buf, static_cast<int>(i + 1));
-        note_.append(buf, res.ptr);
-        note_ += " (OBX-4 ";
-        note_.append(buf, res.ptr);
-        note_ += ") for ";
-        note_ += q.kind;
-        note_ += ": ";
-        note_ += r.equation_set.empty() ? std::string_view("unnamed equation set")
-                                        : std::string_view(r.equation_set);
+        begin_nte(r.origin == Origin::device ? kNoteFromLab : kNoteFromGateway);
+        out_.put("Reference set ");
+        out_.integer(static_cast<long long>(i + 1));
+        out_.put(" (OBX-4 ");
+        out_.integer(static_cast<long long>(i + 1));
+        out_.put(") for ");
+        out_.text(q.kind);
+        out_.put(": ");
+        out_.text(r.equation_set.empty() ? std::string_view("unnamed equation set")
+                                         : std::string_view(r.equation_set));
         if (!r.equation_version.empty()) {
-            note_ += ", version ";
-            note_ += r.equation_version;
+            out_.put(", version ");
+            out_.text(r.equation_version);
         }
-        note_ += "; computed by the ";
-        note_ += to_string(r.origin);
-        note_ += '.';
-        write_nte(r.origin == Origin::device ? kNoteFromLab : kNoteFromGateway, note_);
+        out_.put("; computed by the ");
+        out_.text(to_string(r.origin));
+        out_.put('.');
+        out_.put(kSegmentEnd);
     }
 
-    void write_reference_values(const Quantity& q, const QuantityKind* kind,
-                                const ReferenceValues& r, int set, int decimals,
-                                const Timestamp* when) {
-        const std::string_view base = kind ? std::string_view(kind->base) : q.kind;
-        struct Item {
-            const std::optional<double>& value;
-            std::string_view variant;
-            std::string_view suffix;
-            bool own_unit;  // z and percent have their own unit; the rest the quantity's
-        };
-        const std::array<Item, 5> items{{
-            {r.predicted, "predicted", ".pred", false},
-            {r.lln, "lln", ".lln", false},
-            {r.uln, "uln", ".uln", false},
-            {r.z_score, "z", ".z", true},
-            {r.percent_predicted, "percent_predicted", ".pctpred", true},
-        }};
+    void write_reference_values(const Quantity& q, const KindInfo* info, const ReferenceValues& r,
+                                int set, int decimals) {
+        const std::array<const std::optional<double>*, kVariantSlots> values{
+            &r.predicted, &r.lln, &r.uln, &r.z_score, &r.percent_predicted};
         char sub_id[16];
         auto res = std::to_chars(sub_id, sub_id + sizeof sub_id, set);
         const std::string_view sub(sub_id, static_cast<std::size_t>(res.ptr - sub_id));
-        for (const Item& it : items) {
-            if (!it.value || !std::isfinite(*it.value)) continue;
-            const QuantityKind* vk = variant_row(table_, base, it.variant, it.suffix);
-            if (!vk) continue;  // no code for it: a value without a code is not sent
-            const int d = it.own_unit ? vk->decimals_for(options_.units) : decimals;
-            begin_obx(true, vk, vk->key, sub);
-            append_fixed(*it.value, d, out_);
-            out_ += '|';
-            append_unit(it.own_unit ? std::string_view(vk->unit_for(options_.units))
-                                    : std::string_view(q.unit));
-            out_ += "||";  // OBX-7, OBX-8 empty: limits and flags belong to the measured value
-            end_obx(status_, when);
+        for (std::size_t v = 0; v < kVariantSlots; ++v) {
+            const std::optional<double>& value = *values[v];
+            if (!value || !std::isfinite(*value)) continue;
+            const KindInfo* vinfo = variant_of(q, info, v);
+            if (!vinfo) continue;  // no code for it: a value without a code is not sent
+            const QuantityKind& vk = *vinfo->kind;
+            const bool own_unit = kVariants[v].own_unit;
+            const int d = own_unit ? vk.decimals_for(options_.units) : decimals;
+            begin_obx(true, vinfo, vk.key, sub);
+            out_.fixed(*value, d);
+            out_.put('|');
+            if (own_unit)
+                out_.put(vinfo->unit_ce[units_]);
+            else
+                put_unit(q.unit, info);
+            out_.put("||");  // OBX-7, OBX-8 empty: limits and flags belong to the measured value
+            end_obx(status_);
         }
+    }
+
+    const KindInfo* variant_of(const Quantity& q, const KindInfo* info, std::size_t v) const {
+        if (info) {
+            const int row = info->variants[v];
+            return row < 0 ? nullptr : &cache_.at(row);
+        }
+        const QuantityKind* vk = cache_.variant_row(q.kind, kVariants[v]);
+        return vk ? cache_.find(vk->key) : nullptr;
     }
 
     // OBX-1..4 and the separator before OBX-5.
-    void begin_obx(bool numeric, const QuantityKind* kind, std::string_view key,
+    void begin_obx(bool numeric, const KindInfo* info, std::string_view key,
                    std::string_view sub_id) {
-        out_ += "OBX|";
-        append_int(++obx_set_, out_);
-        out_ += '|';
-        if (numeric) out_ += "NM";
-        out_ += '|';
-        if (kind)
-            append_ce(kind->code, kind->display, hl7_coding_system(*kind), out_);
-        else
-            append_ce(key, key, kProjectHl7CodingSystem, out_);
-        out_ += '|';
-        out_ += sub_id;
-        out_ += '|';
-    }
-
-    // OBX-9 .. OBX-18, after OBX-8. The part after OBX-11 is the same for
-    // every OBX of a test, so it is built once per test (obx_tail_).
-    void end_obx(char status, const Timestamp* when) {
-        if (when != tail_time_ || !tail_ready_) {
-            obx_tail_.assign("|||");  // OBX-12, OBX-13
-            append_opt_ts(when, obx_tail_);
-            obx_tail_ += "||||";  // OBX-15..17
-            append_equipment(obx_tail_);
-            obx_tail_ += kSegmentEnd;
-            tail_time_ = when;
-            tail_ready_ = true;
+        out_.put("OBX|");
+        out_.integer(++obx_set_);
+        out_.put(numeric ? std::string_view("|NM|") : std::string_view("||"));
+        if (info) {
+            out_.put(info->ce);
+        } else {
+            out_.text(key);
+            out_.put('^');
+            out_.text(key);
+            out_.put('^');
+            out_.put(kProjectHl7CodingSystem);
         }
-        out_ += "|||";  // OBX-9, OBX-10
-        out_ += status;
-        out_ += obx_tail_;
+        out_.put('|');
+        out_.put(sub_id);
+        out_.put('|');
     }
 
-    void append_unit(std::string_view unit) {
+    // OBX-12 .. OBX-18 and the CR: the same for every OBX of a test.
+    void build_obx_tail(const Timestamp* when) {
+        obx_tail_.clear();
+        std::string& t = obx_tail_;
+        t += "|||";  // OBX-12, OBX-13
+        if (when) {
+            constexpr std::size_t kTimestampRoom = 32;
+            Sink s(t, kTimestampRoom);
+            put_ts(*when, s);
+            s.finish();
+        }
+        t += "||||";  // OBX-15..17
+        append_equipment(t);
+        t += kSegmentEnd;
+    }
+
+    // OBX-9 .. OBX-18, after OBX-8.
+    void end_obx(char status) {
+        out_.put("|||");  // OBX-9, OBX-10
+        out_.put(status);
+        out_.put(obx_tail_);
+    }
+
+    void put_unit(std::string_view unit, const KindInfo* info) {
         if (unit.empty()) return;
-        append_text(unit, out_);
-        out_ += '^';
-        append_text(unit, out_);
-        out_ += "^UCUM";
+        if (info) {
+            // The usual case: the unit the table renders for this system.
+            const QuantityKind& k = *info->kind;
+            if (unit == k.unit_for(options_.units)) {
+                out_.put(info->unit_ce[units_]);
+                return;
+            }
+        }
+        out_.text(unit);
+        out_.put('^');
+        out_.text(unit);
+        out_.put("^UCUM");
     }
 
-    void append_range(const ReferenceValues& r, int decimals) {
+    void put_range(const ReferenceValues& r, int decimals) {
         const bool lln = r.lln && std::isfinite(*r.lln);
         const bool uln = r.uln && std::isfinite(*r.uln);
         if (lln && uln) {
-            append_fixed(*r.lln, decimals, out_);
-            out_ += '-';
-            append_fixed(*r.uln, decimals, out_);
+            out_.fixed(*r.lln, decimals);
+            out_.put('-');
+            out_.fixed(*r.uln, decimals);
         } else if (lln) {
-            out_ += '>';
-            append_fixed(*r.lln, decimals, out_);
+            out_.put('>');
+            out_.fixed(*r.lln, decimals);
         } else if (uln) {
-            out_ += '<';
-            append_fixed(*r.uln, decimals, out_);
+            out_.put('<');
+            out_.fixed(*r.uln, decimals);
         }
     }
 
@@ -650,15 +990,12 @@ private:
     void append_equipment(std::string& out) const {
         constexpr std::size_t kObx18MaxLength = 22;  // HL7 2.5.1 OBX-18 length
         const Device& d = result_.device;
-        append_text(d.id, out);
+        append_escaped(d.id, out);
         const std::size_t len = d.id.size();
         const std::size_t ns = d.manufacturer.size() + d.model.size() +
                                (d.manufacturer.empty() || d.model.empty() ? 0 : 1);
         if (ns == 0 || len + 1 + ns > kObx18MaxLength) return;
-        for (char c : d.manufacturer)
-            if (needs_escape(static_cast<unsigned char>(c))) return;
-        for (char c : d.model)
-            if (needs_escape(static_cast<unsigned char>(c))) return;
+        if (has_special(d.manufacturer) || has_special(d.model)) return;
         out += '^';
         out += d.manufacturer;
         if (!d.manufacturer.empty() && !d.model.empty()) out += ' ';
@@ -667,48 +1004,23 @@ private:
 
     const NeutralResult& result_;
     const OruOptions& options_;
-    const QuantityTable& table_;
-    std::string& out_;
+    const KindCache& cache_;
+    Sink& out_;
     const char status_;
+    const std::size_t units_;  // 0 si, 1 traditional: index into KindInfo::unit_ce
     int obx_set_ = 0;
     int nte_set_ = 0;
-    std::string note_;  // reused buffer for NTE text
+    std::vector<FindingPlace> homes_;  // per finding; test -1: not written
     std::string obx_tail_;
-    const Timestamp* tail_time_ = nullptr;
-    bool tail_ready_ = false;
 };
 
 }  // namespace
 
 void append_escaped(std::string_view text, std::string& out) {
-    std::size_t run = 0;  // start of the pending run of plain bytes
-    for (std::size_t i = 0; i < text.size(); ++i) {
-        const auto c = static_cast<unsigned char>(text[i]);
-        if (!needs_escape(c)) continue;
-        out.append(text.data() + run, i - run);
-        run = i + 1;
-        switch (c) {
-            case '|':
-                out += "\\F\\";
-                break;
-            case '^':
-                out += "\\S\\";
-                break;
-            case '&':
-                out += "\\T\\";
-                break;
-            case '~':
-                out += "\\R\\";
-                break;
-            case '\\':
-                out += "\\E\\";
-                break;
-            default:
-                append_hex_escape(c, out);
-                break;
-        }
-    }
-    out.append(text.data() + run, text.size() - run);
+    const std::size_t used = out.size();
+    out.resize(used + text.size() * kEscapeGrowth);
+    char* end = write_escaped(text, out.data() + used);
+    out.resize(static_cast<std::size_t>(end - out.data()));
 }
 
 std::string_view abnormal_flag(double value, std::optional<double> lln, std::optional<double> uln,
@@ -738,7 +1050,12 @@ std::optional<Error> check_oru_options(const OruOptions& options) {
 
 void write_oru_r01(const NeutralResult& result, const OruOptions& options,
                    const QuantityTable& table, std::string& out) {
-    Writer(result, options, table, out).write();
+    const KindCache* shared = shared_cache_for(table);
+    std::optional<KindCache> own;
+    if (!shared) own.emplace(table);
+    Sink sink(out, size_estimate(result));
+    Writer(result, options, shared ? *shared : *own, sink).write();
+    sink.finish();
 }
 
 }  // namespace pftgw::hl7v2

@@ -10,18 +10,6 @@
 namespace pftgw::csv {
 namespace {
 
-// The fields a column can fill besides quantities (schemas/device-profile.md).
-constexpr const char* kFieldTargets[] = {
-    "subject.identifier",   "subject.family_name", "subject.given_name", "subject.birth_date",
-    "subject.sex_at_birth", "session_time",        "device.id",          "device_session_number",
-    "order.accession",      "order.placer",        "order.filler",       "test.comment"};
-
-bool is_field_target(const std::string& t) {
-    for (const char* f : kFieldTargets)
-        if (t == f) return true;
-    return false;
-}
-
 std::string trim(const std::string& s) {
     const auto b = s.find_first_not_of(" \t");
     if (b == std::string::npos) return {};
@@ -381,11 +369,13 @@ bool CsvReader::apply_field(NeutralResult& r, const std::string& target, const s
         r.device.id = text;
     } else if (target == "device_session_number") {
         r.device_session_number = text;
-    } else if (target == "order.accession") {
+    } else if (target == "subject.laboratory_identifier") {
+        r.subject.identifiers.push_back({profile_.laboratory_identifier_system, text, "PI"});
+    } else if (target == "order.accession_number") {
         r.order.accession_number = text;
-    } else if (target == "order.placer") {
+    } else if (target == "order.placer_number") {
         r.order.placer_number = text;
-    } else if (target == "order.filler") {
+    } else if (target == "order.filler_number") {
         r.order.filler_number = text;
     } else if (target == "test.comment") {
         if (!r.tests.empty()) r.tests.front().comments.push_back(text);

@@ -480,9 +480,13 @@ private:
         q.source.code_system = !system.empty() ? system : profile_->code_system;
         auto [sent_unit, condition_text] = split_condition(unit_text);
         q.source.condition_text = condition_text;
-        q.unit = (mapping->override_sent || sent_unit.empty()) && !mapping->unit.empty()
+        // The device's own unit spellings ("ml", "mmHg") map to UCUM through the
+        // profile's [units] table; what was sent stays in source.unit_text.
+        const std::string* alias = profile_->ucum_for(sent_unit);
+        const std::string ucum_unit = alias ? *alias : sent_unit;
+        q.unit = (mapping->override_sent || ucum_unit.empty()) && !mapping->unit.empty()
                      ? mapping->unit
-                     : sent_unit;
+                     : ucum_unit;
         const auto sent_condition =
             condition_text.empty() ? std::nullopt : parse_gas_condition(condition_text);
         if (mapping->condition && (mapping->override_sent || !sent_condition))

@@ -1,0 +1,83 @@
+#!/usr/bin/env bash
+# One invented session (samples/exports, Kestrel Vale lab: Ilvesson, SPX3,
+# 2026-03-20) sent as ASTM E1394 records, as an ASTM capture framed by E1381,
+# as HL7 v2.3 ORU from the device, and as a row of its CSV archive: read through
+# its profile, each gives the same normalized neutral result.
+# Usage: device_dialects.sh PATH/TO/pftgw SOURCE_DIR
+set -uo pipefail
+pftgw=$1
+src=$2
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+cd "$src"
+profile=samples/profiles/aldercrest-flowquill-3.toml
+passed=0
+failed=0
+ok() { passed=$((passed + 1)); }
+bad() { failed=$((failed + 1)); echo "FAIL: $*"; }
+
+# An E1381 capture of the record text, framed here independently of the
+# gateway: STX FN text ETX C1 C2 CR LF, checksum = sum of bytes FN..ETX mod 256
+# as two uppercase hex digits (ASTM E1381 as quoted in interop-facts.md, V);
+# one frame per record, FN 1..7 then 0.
+python3 - samples/exports/spx3-ilvesson-2026-03-20.astm "$work/capture.astm" <<'PY'
+import sys
+text = open(sys.argv[1], 'rb').read()
+records = [r + b'\r' for r in text.split(b'\r') if r]
+out = bytearray(b'\x05')
+for i, rec in enumerate(records):
+    fn = str((i + 1) % 8).encode()
+    body = fn + rec + b'\x03'
+    out += b'\x02' + body + ('%02X' % (sum(body) % 256)).encode() + b'\r\n'
+out += b'\x04'
+open(sys.argv[2], 'wb').write(out)
+PY
+
+run() {  # run NAME FROM FILE
+  "$pftgw" convert --quiet --from "$2" --profile "$profile" --to neutral-json --out "$work/$1" "$3"
+  local rc=$?
+  [ "$rc" -eq 0 ] && ok || { bad "$1: convert exited $rc"; cat "$work/$1/rejects.jsonl" 2>/dev/null; }
+}
+run astm astm samples/exports/spx3-ilvesson-2026-03-20.astm
+run capture astm "$work/capture.astm"
+run hl7v2 hl7v2 samples/exports/spx3-ilvesson-2026-03-20.hl7
+run csv csv samples/exports/spx3-archive-2026-03.csv
+
+# Compare what matters clinically; provenance (source codes and texts) differs by dialect on purpose.
+python3 - "$work" <<'PY' && ok || bad "the dialects disagree"
+import json, sys
+work = sys.argv[1]
+def proj(name):
+    d = json.load(open(f"{work}/{name}/SPX3-004801.json"))
+    s = d["subject"]
+    return {
+        "id": d["id"], "time": d.get("sessionTime"),
+        "identifiers": [(i["system"], i["value"]) for i in s.get("identifiers", [])],
+        "name": s.get("name"), "sex": s.get("sexAtBirth"), "birth": s.get("birthDate"),
+        "environment": {k: (round(v["value"], 6), v["unit"]) for k, v in d.get("environment", {}).items()},
+        "values": sorted((t["type"], q["kind"], round(q["value"], 9), q["unit"], q.get("condition"),
+                          str([(r.get("lln"), r.get("uln")) for r in q.get("reference", [])]))
+                         for t in d["tests"] for q in t["values"] if "value" in q),
+    }
+ref = proj("astm")
+bad = 0
+for name in ("capture", "hl7v2", "csv"):
+    other = proj(name)
+    for k in ref:
+        if ref[k] != other[k]:
+            print(f"{name} differs in {k}:\n  astm: {ref[k]}\n  {name}: {other[k]}")
+            bad += 1
+# The FEV1 sent as 2010 mL at ATPS, 22.5 Cel, 755 mmHg: BTPS factor
+# (PB - PH2O(22.5)) / (PB - 47) x 310.15 / 295.65 with Buck 1996 PH2O = 2.7263 kPa
+# (20.45 mmHg): (755 - 20.45) / 708 x 1.04905 = 1.08843, so 2.1877 L (lung-function-facts.md).
+fev1 = [v for v in ref["values"] if v[1] == "FEV1"][0]
+if abs(fev1[2] - 2.1877) > 0.0005:
+    print("FEV1 BTPS", fev1[2]); bad += 1
+sys.exit(1 if bad else 0)
+PY
+
+# The CSV archive's other rows are results of their own.
+n=$(find "$work/csv" -name 'SPX3-*.json' | wc -l)
+[ "$n" -eq 3 ] && ok || bad "CSV archive gave $n results, expected 3"
+echo "dialects: $passed passed, $failed failed"
+[ "$failed" -eq 0 ]

@@ -25,6 +25,10 @@ using namespace physiology;
 using Values = std::vector<std::pair<std::string, std::string>>;
 
 constexpr const char* kTraditional = "mL/min/mm[Hg]";
+// A sent / recomputed DLCO ratio within 1 % of a gas-condition factor (or its
+// inverse) is named as the likely slip in the mismatch message. Engineering
+// choice: the maneuver's rounding moves the ratio by well under 1 %.
+constexpr double kKnownSlipRatioTolerance = 0.01;
 constexpr const char* kSi = "mmol/min/kPa";
 
 std::string fixed(double v, int decimals) {
@@ -33,9 +37,15 @@ std::string fixed(double v, int decimals) {
     return ec == std::errc() ? std::string(buf, p) : std::string("?");
 }
 
+// A number for a finding's values and a derivation's text: 10 significant
+// digits, so a value that went through a unit conversion and back reads as
+// sent ("24.2", not "24.200000000000003") while a computed one keeps more
+// digits than any display needs.
+constexpr int kValueSignificantDigits = 10;
 std::string shortest(double v) {
     char buf[64];
-    auto [p, ec] = std::to_chars(buf, buf + sizeof buf, v);
+    auto [p, ec] = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::general,
+                                 kValueSignificantDigits);
     return ec == std::errc() ? std::string(buf, p) : std::string("?");
 }
 
@@ -192,6 +202,7 @@ private:
     struct TrialDlco {
         DlcoManeuver maneuver;
         std::optional<double> recomputed_va_l;
+        std::optional<double> recomputed_dlco_ml_min_mmhg;
     };
 
     TrialDlco dlco_trial(std::size_t i, std::size_t j, std::optional<double> vc_l) {
@@ -305,6 +316,7 @@ private:
         }
 
         out.recomputed_va_l = c->va_btps_l;
+        out.recomputed_dlco_ml_min_mmhg = c->dlco_ml_min_mmhg;
         if (!m.va_l) m.va_l = c->va_btps_l;
         if (!m.dlco_ml_min_mmhg) m.dlco_ml_min_mmhg = c->dlco_ml_min_mmhg;
         Values vals{{"trial", std::to_string(tr.number)},
@@ -312,18 +324,37 @@ private:
                     {"VA.recomputed", shortest(c->va_btps_l)},
                     {"BHT", shortest(*bht)}};
         if (sent_dlco && differs(*sent_dlco, c->dlco_ml_min_mmhg, o_.dlco_tolerance_fraction,
-                                 o_.dlco_tolerance_ml_min_mmhg))
+                                 o_.dlco_tolerance_ml_min_mmhg)) {
+            // What a device maker needs to find the cause: the ratio, the inputs
+            // the recomputation used, and a hint when the ratio is a known slip.
+            const double ratio = *sent_dlco / c->dlco_ml_min_mmhg;
+            const double stpd = c->va_stpd_l / c->va_btps_l;
+            std::string hint;
+            if (std::abs(ratio * stpd - 1.0) <= kKnownSlipRatioTolerance)
+                hint = "; the ratio is 1 / the BTPS-to-STPD factor " + fixed(stpd, 4) +
+                       ": was VA taken at BTPS where the formula needs STPD?";
+            else if (std::abs(ratio / stpd - 1.0) <= kKnownSlipRatioTolerance)
+                hint = "; the ratio is the BTPS-to-STPD factor " + fixed(stpd, 4) +
+                       ": was VA converted to STPD twice?";
             add("dlco.recompute-mismatch", Severity::warning, trial_path(i, j) + ".values[DLCO]",
                 "DLCO sent " + fixed(*sent_dlco, 1) + ", recomputed from your maneuver " +
                     fixed(c->dlco_ml_min_mmhg, 1) + " mL/min/mm[Hg] (" +
                     fixed(*sent_dlco / kDlcoTraditionalPerSi, 2) + " vs " +
                     fixed(c->dlco_mmol_min_kpa, 2) + " mmol/min/kPa); tolerance " +
                     fixed(o_.dlco_tolerance_fraction * 100, 0) + " % or " +
-                    fixed(o_.dlco_tolerance_ml_min_mmhg, 1) + " mL/min/mm[Hg]",
+                    fixed(o_.dlco_tolerance_ml_min_mmhg, 1) + " mL/min/mm[Hg]; sent / recomputed " +
+                    fixed(ratio, 3) + "; recomputed with VA " + fixed(c->va_btps_l, 3) +
+                    " L BTPS (" + fixed(c->va_stpd_l, 3) + " L STPD), dead space " +
+                    fixed(*vd_instr + *vd_anat, 3) + " L, breath-hold " + fixed(*bht, 2) + " s" +
+                    (bht_jones_meade ? " (Jones-Meade)" : " (as sent)") + ", PB " +
+                    fixed(*reader_.ambient().pressure_kpa, 2) + " kPa, FA,CO,0 " +
+                    fixed(c->fa_co_0, 6) + hint,
                 {{"trial", std::to_string(tr.number)},
                  {"DLCO.sent", shortest(*sent_dlco)},
                  {"DLCO.recomputed", shortest(c->dlco_ml_min_mmhg)},
+                 {"ratio", shortest(ratio)},
                  {"unit", kTraditional}});
+        }
         if (sent_va && differs(*sent_va, c->va_btps_l, o_.va_tolerance_fraction, o_.va_tolerance_l))
             add("dlco.va-mismatch", Severity::warning, trial_path(i, j) + ".values[VA]",
                 "VA sent " + fixed(*sent_va, 2) + ", recomputed from your maneuver " +
@@ -365,7 +396,8 @@ private:
         Test& t = r_.tests[i];
         const auto vc_l = largest_vc_l();
         std::vector<DlcoManeuver> maneuvers;
-        std::vector<std::size_t> index;  // trial index of each maneuver
+        std::vector<std::size_t> index;                 // trial index of each maneuver
+        std::vector<std::optional<double>> recomputed;  // recomputed DLCO of each maneuver
         std::size_t ungradable = 0;
         for (std::size_t j = 0; j < t.trials.size(); ++j) {
             TrialDlco td = dlco_trial(i, j, vc_l);
@@ -375,6 +407,7 @@ private:
             if (m.vi_vc && m.breath_hold_s) {
                 maneuvers.push_back(m);
                 index.push_back(j);
+                recomputed.push_back(td.recomputed_dlco_ml_min_mmhg);
             } else if (m.dlco_ml_min_mmhg) {
                 ++ungradable;
             }
@@ -397,12 +430,49 @@ private:
             }
             if (previous) maneuvers[a].since_previous_s = static_cast<double>(*previous);
         }
-        if (!maneuvers.empty()) grade_dlco(i, maneuvers, index);
+        if (!maneuvers.empty()) grade_dlco(i, maneuvers, index, recomputed);
         adjust_dlco(i);
     }
 
+    // The reported DLCO is the mean of maneuvers as the device computed them;
+    // when the same maneuvers recomputed from their own data give a mean beyond
+    // the tolerance, the value in the record does not follow from the data
+    // either (the per-maneuver warnings say which maneuver and by how much).
+    void reported_vs_recomputed(std::size_t i, const DlcoSessionSummary& s,
+                                const std::vector<DlcoManeuver>& maneuvers,
+                                const std::vector<std::optional<double>>& recomputed,
+                                const std::string& trials) {
+        const Test& t = r_.tests[i];
+        const auto sent = reader_.get(t.values, "DLCO", kTraditional, GasCondition::stpd);
+        if (!sent || s.reported_trials.empty()) return;
+        double sum = 0;
+        for (int n : s.reported_trials) {
+            std::optional<double> c;
+            for (std::size_t a = 0; a < maneuvers.size(); ++a)
+                if (maneuvers[a].trial_number == n) c = recomputed[a];
+            if (!c) return;  // a maneuver not recomputed: nothing to compare
+            sum += *c;
+        }
+        const double mean = sum / static_cast<double>(s.reported_trials.size());
+        if (!differs(*sent, mean, o_.dlco_tolerance_fraction, o_.dlco_tolerance_ml_min_mmhg))
+            return;
+        add("dlco.recompute-mismatch", Severity::warning, test_path(i) + ".values[DLCO]",
+            "reported DLCO " + fixed(*sent, 1) + " mL/min/mm[Hg] (" +
+                fixed(*sent / kDlcoTraditionalPerSi, 2) +
+                " mmol/min/kPa) does not follow from the maneuvers it is taken over (" + trials +
+                "): recomputed from their data their mean is " + fixed(mean, 1) +
+                " mL/min/mm[Hg] (" + fixed(mean / kDlcoTraditionalPerSi, 2) +
+                " mmol/min/kPa); tolerance " + fixed(o_.dlco_tolerance_fraction * 100, 0) +
+                " % or " + fixed(o_.dlco_tolerance_ml_min_mmhg, 1) + " mL/min/mm[Hg]",
+            {{"DLCO.sent", shortest(*sent)},
+             {"DLCO.recomputed-mean", shortest(mean)},
+             {"trials", trials},
+             {"unit", kTraditional}});
+    }
+
     void grade_dlco(std::size_t i, const std::vector<DlcoManeuver>& maneuvers,
-                    const std::vector<std::size_t>& index) {
+                    const std::vector<std::size_t>& index,
+                    const std::vector<std::optional<double>>& recomputed) {
         Test& t = r_.tests[i];
         const auto gradings = grade_dlco_maneuvers(maneuvers);
         for (std::size_t a = 0; a < gradings.size(); ++a) {
@@ -421,13 +491,14 @@ private:
             add("quality.dlco.maneuver", Severity::info, trial_path(i, index[a]),
                 "DLCO maneuver " + std::to_string(g.trial_number) + ": grade " +
                     grade_text(g.grade) + (g.acceptable ? ", acceptable" : ", not acceptable") +
-                    (notes.empty() ? "" : " (" + notes + ")") +
-                    " (ERS/ATS 2017 grades via a secondary source; primary table not checked)",
+                    (notes.empty() ? "" : ": " + notes),
                 std::move(vals));
         }
         const DlcoSessionSummary s = summarize_dlco_session(maneuvers, gradings);
         add("quality.grade", Severity::info, test_path(i),
-            "DLCO session grade " + grade_text(s.session_grade) + " (best maneuver)",
+            "DLCO session grade " + grade_text(s.session_grade) +
+                " (best maneuver; ERS/ATS 2017 grades via a secondary source, the primary "
+                "grading table not checked)",
             {{"DLCO", grade_text(s.session_grade)}});
 
         Values rep{{"acceptable", std::to_string(s.acceptable_count)}};
@@ -466,6 +537,7 @@ private:
                         {{"DLCO.sent", shortest(*sent)},
                          {"DLCO.mean", shortest(*s.reported_ml_min_mmhg)},
                          {"trials", trials}});
+            reported_vs_recomputed(i, s, maneuvers, recomputed, trials);
             return;
         }
         if (reported) return;  // a gateway value from an earlier run stands

@@ -132,6 +132,84 @@ TEST(PhysiologyEngine, SaysWhenTheSentDlcoDoesNotFollowFromTheManeuver) {
     EXPECT_EQ(with_rule(findings, "quality.dlco.repeatability")[0]->severity, Severity::warning);
 }
 
+// A device that leaves VA at BTPS in the DLCO formula sends DLCO / 0.8262 at
+// 760 mmHg: BTPS -> STPD = (760 - 47) / 760 x 273.15 / 310.15 = 0.93816 x 0.88070
+// = 0.82624 (lung-function-facts.md "Gas conditions", D); 26.2045 / 0.82624 = 31.72.
+TEST(PhysiologyEngine, MismatchNamesTheInputsAndAKnownSlip) {
+    NeutralResult r = session();
+    r.tests[1].trials[0].values.push_back(q("DLCO", 31.7, "mL/min/mm[Hg]", GasCondition::stpd));
+    const auto findings = assess_physiology(r);
+    const auto mismatch = with_rule(findings, "dlco.recompute-mismatch");
+    ASSERT_EQ(mismatch.size(), 1u);
+    const std::string& m = mismatch[0]->message;
+    EXPECT_NE(m.find("DLCO sent 31.7, recomputed from your maneuver 26.2 mL/min/mm[Hg]"),
+              std::string::npos)
+        << m;
+    // 31.7 / 26.2045 = 1.2097; the inputs as used: VA 5.000 L BTPS, 5 x 0.82624 = 4.131 L
+    // STPD, dead space 0.100 + 0.150 L, Jones-Meade 10.0 s, 760 mmHg = 101.32 kPa.
+    EXPECT_NE(m.find("sent / recomputed 1.210"), std::string::npos) << m;
+    EXPECT_NE(m.find("VA 5.000 L BTPS (4.131 L STPD), dead space 0.250 L, breath-hold 10.00 s"),
+              std::string::npos)
+        << m;
+    EXPECT_NE(m.find("1 / the BTPS-to-STPD factor 0.8262"), std::string::npos) << m;
+    EXPECT_NEAR(std::stod(value_of(*mismatch[0], "ratio")), 31.7 / 26.2045, 5e-4);
+}
+
+TEST(PhysiologyEngine, NoSlipNamedForAnOrdinaryMismatch) {
+    NeutralResult r = session();
+    // 22.3 / 26.2045 = 0.851: neither 0.826 nor 1 / 0.826 within 1 %.
+    r.tests[1].trials[1].values.push_back(q("DLCO", 22.3, "mL/min/mm[Hg]", GasCondition::stpd));
+    const auto mismatch = with_rule(assess_physiology(r), "dlco.recompute-mismatch");
+    ASSERT_EQ(mismatch.size(), 1u);
+    EXPECT_EQ(mismatch[0]->message.find("BTPS-to-STPD factor"), std::string::npos)
+        << mismatch[0]->message;
+}
+
+// The reported DLCO is the mean of the device's maneuver values; when those do
+// not follow from their data, the reported value does not either.
+TEST(PhysiologyEngine, ReportedDlcoAgainstTheRecomputedMean) {
+    NeutralResult r = session();
+    for (Trial& t : r.tests[1].trials)
+        t.values.push_back(q("DLCO", 31.7, "mL/min/mm[Hg]", GasCondition::stpd));
+    r.tests[1].values.push_back(q("DLCO", 31.7, "mL/min/mm[Hg]", GasCondition::stpd));
+    const auto findings = assess_physiology(r);
+    const Finding* at_test = nullptr;
+    for (const Finding* f : with_rule(findings, "dlco.recompute-mismatch"))
+        if (f->path == "tests[1].values[DLCO]") at_test = f;
+    ASSERT_NE(at_test, nullptr);
+    EXPECT_EQ(at_test->severity, Severity::warning);
+    // Both maneuvers recompute to 26.2045 (hand-worked above): mean 26.2.
+    EXPECT_NE(at_test->message.find("reported DLCO 31.7 mL/min/mm[Hg]"), std::string::npos)
+        << at_test->message;
+    EXPECT_NE(at_test->message.find("their mean is 26.2 mL/min/mm[Hg]"), std::string::npos)
+        << at_test->message;
+    EXPECT_EQ(value_of(*at_test, "trials"), "1, 2");
+    // The device's mean of its own values is 31.7: no dlco.reported-mismatch.
+    EXPECT_TRUE(with_rule(findings, "dlco.reported-mismatch").empty());
+    // Nothing is overwritten.
+    EXPECT_EQ(*r.tests[1].find("DLCO")->value, 31.7);
+}
+
+TEST(PhysiologyEngine, ReportedDlcoThatFollowsIsQuiet) {
+    NeutralResult r = session();
+    r.tests[1].values.push_back(q("DLCO", 26.2, "mL/min/mm[Hg]", GasCondition::stpd));
+    EXPECT_TRUE(with_rule(assess_physiology(r), "dlco.recompute-mismatch").empty());
+}
+
+// A value that went to SI and back (normalize, then read in the traditional
+// unit) is shown as sent: 24.2 / 2.987 x 2.987 is 24.200000000000003 in binary.
+TEST(PhysiologyEngine, FindingValuesReadAsSent) {
+    NeutralResult r = session();
+    r.tests[1].trials[1].values.push_back(
+        q("DLCO", 24.2 / kDlcoTraditionalPerSi, "mmol/min/kPa", GasCondition::stpd));
+    // 24.2 vs 26.2045: 2.0 apart, inside 10 %; a strict tolerance makes it a mismatch.
+    PhysiologyOptions strict;
+    strict.dlco_tolerance_fraction = 0.01;
+    const auto mismatch = with_rule(assess_physiology(r, strict), "dlco.recompute-mismatch");
+    ASSERT_EQ(mismatch.size(), 1u);
+    EXPECT_EQ(value_of(*mismatch[0], "DLCO.sent"), "24.2");
+}
+
 TEST(PhysiologyEngine, WithinToleranceIsNotAMismatch) {
     NeutralResult r = session();
     // 24.1 vs 26.2: 2.1 apart, inside 10 % of 24.1 = 2.41 (the default tolerance).

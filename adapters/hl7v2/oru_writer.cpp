@@ -58,6 +58,40 @@ constexpr std::string_view kCaution =
     "ULN). z-score bands -1.645 / -2.5 / -4.0 (Stanojevic 2022) are text for staff, "
     "never flags.";
 
+// Test grades travel as findings (rule quality.grade, values ("FEV1", "A") ...);
+// each gets an ST OBX coded in 99PFTGW (no LOINC for a grade; schemas/README.md,
+// "Codes that are not quantities").
+constexpr std::string_view kGradeRule = "quality.grade";
+struct GradeCode {
+    std::string_view name;  // the finding's value name
+    std::string_view ce;    // OBX-3, already free of characters to escape
+};
+constexpr std::array<GradeCode, 3> kGradeCodes{{
+    {"FEV1", "FEV1.grade^FEV1 quality grade (ATS/ERS 2019)^99PFTGW"},
+    {"FVC", "FVC.grade^FVC quality grade (ATS/ERS 2019)^99PFTGW"},
+    {"DLCO", "DLCO.grade^DLCO quality grade (ERS/ATS 2017)^99PFTGW"},
+}};
+
+// Info findings that travel in the message: the physiology grades,
+// acceptability and repeatability (quality.*) and adjustments not made
+// (adjust.*). Other info findings are for `pftgw check` only.
+constexpr std::array<std::string_view, 2> kTravellingInfoPrefixes{"quality.", "adjust."};
+
+bool info_travels(const Finding& f) {
+    for (std::string_view prefix : kTravellingInfoPrefixes)
+        if (std::string_view(f.rule).substr(0, prefix.size()) == prefix) return true;
+    return false;
+}
+
+// z-score band edges (Stanojevic 2022, lung-function-facts.md, V); the band
+// names mild / moderate / severe are from memory of the same paper. Text only:
+// OBX-8 stays L / H / N from LLN / ULN (DECISIONS.md, patient safety).
+constexpr double kZMild = -1.645;
+constexpr double kZModerate = -2.5;
+constexpr double kZSevere = -4.0;
+constexpr std::string_view kZCaution =
+    "text only, not a flag; interpretation belongs to licensed staff.";
+
 // Worst-case growth of escaped text: one byte becomes "\Xhh\" (5 bytes).
 constexpr std::size_t kEscapeGrowth = 5;
 // Room for one number: to_chars of a double with up to 17 decimals fits in 64.
@@ -693,6 +727,29 @@ private:
 
         obx_set_ = 0;
         for (const auto& q : test.values) write_quantity(index, q);
+        write_grades(index);
+    }
+
+    // One ST OBX per grade of the test's quality.grade findings.
+    void write_grades(int test_index) {
+        for (std::size_t i = 0; i < homes_.size(); ++i) {
+            const Finding& f = result_.findings[i];
+            if (homes_[i].test != test_index || f.rule != kGradeRule) continue;
+            for (const auto& [name, grade] : f.values) {
+                const GradeCode* code = nullptr;
+                for (const GradeCode& g : kGradeCodes)
+                    if (g.name == name) code = &g;
+                if (!code || grade.empty()) continue;
+                out_.put("OBX|");
+                out_.integer(++obx_set_);
+                out_.put("|ST|");
+                out_.put(code->ce);
+                out_.put("||");
+                out_.text(grade);
+                out_.put("|||");  // OBX-6..8 empty: a grade has no unit, range or flag
+                end_obx(status_);
+            }
+        }
     }
 
     // Method, device and gas conditions, so a reader of the message alone knows
@@ -758,7 +815,7 @@ private:
                        !result_.tests[static_cast<std::size_t>(p.test)].find(p.kind)) {
                 p.kind = {};
             }
-            if (f.severity == Severity::info) p.test = -1;  // info findings are for `check` only
+            if (f.severity == Severity::info && !info_travels(f)) p.test = -1;
             homes_.push_back(p);
         }
     }
@@ -770,8 +827,9 @@ private:
             if (home.test != test_index || home.kind != kind) continue;
             const Finding& f = result_.findings[i];
             begin_nte(kNoteFromGateway);
-            out_.put(f.severity == Severity::error ? std::string_view("Error ")
-                                                   : std::string_view("Warning "));
+            out_.put(f.severity == Severity::error     ? std::string_view("Error ")
+                     : f.severity == Severity::warning ? std::string_view("Warning ")
+                                                       : std::string_view("Info "));
             out_.text(f.rule);
             if (!f.path.empty()) {
                 out_.put(" at ");
@@ -813,7 +871,9 @@ private:
         const QuantityKind* kind = info ? info->kind : nullptr;
         const int decimals = kind ? kind->decimals_for(options_.units) : 2;
         const bool present = q.value.has_value() && std::isfinite(*q.value);
-        const ReferenceValues* first_ref = q.reference.empty() ? nullptr : &q.reference.front();
+        const std::size_t flag_set = flag_set_of(q);
+        const ReferenceValues* first_ref =
+            flag_set < q.reference.size() ? &q.reference[flag_set] : nullptr;
 
         begin_obx(present, info, q.kind, {});
         if (present) out_.fixed(*q.value, decimals);
@@ -841,14 +901,77 @@ private:
                 out_.put(i ? std::string_view(", ") : std::string_view(" from "));
                 out_.text(q.derived_from[i]);
             }
+            // Which adjustment or computation made it (physiology's derivation steps).
+            if (q.derivation && !q.derivation->steps.empty()) {
+                out_.put(": ");
+                out_.text(q.derivation->steps);
+            }
             out_.put('.');
             out_.put(kSegmentEnd);
         }
         for (std::size_t i = 0; i < q.reference.size(); ++i) write_reference_note(q, i);
+        if (present && q.reference.size() > 1) {
+            begin_nte(kNoteFromGateway);
+            out_.put("OBX-7 and OBX-8 use reference set ");
+            out_.integer(static_cast<long long>(flag_set + 1));
+            out_.put(" (");
+            put_set_name(q.reference[flag_set]);
+            out_.put(").");
+            out_.put(kSegmentEnd);
+        }
         write_findings(test_index, q.kind);
 
         for (std::size_t i = 0; i < q.reference.size(); ++i)
             write_reference_values(q, info, q.reference[i], static_cast<int>(i + 1), decimals);
+    }
+
+    // The set OBX-7 and OBX-8 compare with: the first set the gateway computed
+    // (the reference policy, always a GLI set) when it has a limit, else the
+    // first set. A lab that turns the policy on has chosen that set for its
+    // record; the device's set still goes out in full, with its own OBX-4.
+    static std::size_t flag_set_of(const Quantity& q) {
+        for (std::size_t i = 0; i < q.reference.size(); ++i) {
+            const ReferenceValues& r = q.reference[i];
+            if (r.origin == Origin::gateway && (r.lln || r.uln)) return i;
+        }
+        return 0;
+    }
+
+    void put_set_name(const ReferenceValues& r) {
+        out_.text(r.equation_set.empty() ? std::string_view("unnamed equation set")
+                                         : std::string_view(r.equation_set));
+        if (!r.equation_version.empty()) {
+            out_.put(", version ");
+            out_.text(r.equation_version);
+        }
+    }
+
+    // The z-score's place among the band edges, as text (never a flag).
+    void write_z_band_note(const Quantity& q, const KindInfo* info, std::size_t i) {
+        const ReferenceValues& r = q.reference[i];
+        if (!r.z_score || !std::isfinite(*r.z_score)) return;
+        const KindInfo* zinfo = info ? variant_of(q, info, kZ) : nullptr;
+        const int d = zinfo ? zinfo->kind->decimals_for(options_.units) : 2;
+        const double z = rounded(*r.z_score, d);
+        begin_nte(kNoteFromGateway);
+        out_.put("z-score ");
+        out_.fixed(*r.z_score, d);
+        out_.put(" (reference set ");
+        out_.integer(static_cast<long long>(i + 1));
+        out_.put("): ");
+        if (z < kZSevere)
+            out_.put("below -4.0 (Stanojevic 2022 band: severe)");
+        else if (z < kZModerate)
+            out_.put("from -4.0 to below -2.5 (Stanojevic 2022 band: moderate)");
+        else if (z < kZMild)
+            out_.put("from -2.5 to below -1.645 (Stanojevic 2022 band: mild)");
+        else if (z > -kZMild)
+            out_.put("above +1.645");
+        else
+            out_.put("from -1.645 to +1.645");
+        out_.put("; bands -1.645 / -2.5 / -4.0 are ");
+        out_.put(kZCaution);
+        out_.put(kSegmentEnd);
     }
 
     void write_reference_note(const Quantity& q, std::size_t i) {
@@ -861,16 +984,12 @@ private:
         out_.put(") for ");
         out_.text(q.kind);
         out_.put(": ");
-        out_.text(r.equation_set.empty() ? std::string_view("unnamed equation set")
-                                         : std::string_view(r.equation_set));
-        if (!r.equation_version.empty()) {
-            out_.put(", version ");
-            out_.text(r.equation_version);
-        }
+        put_set_name(r);
         out_.put("; computed by the ");
         out_.text(to_string(r.origin));
         out_.put('.');
         out_.put(kSegmentEnd);
+        write_z_band_note(q, cache_.find(q.kind), i);
     }
 
     void write_reference_values(const Quantity& q, const KindInfo* info, const ReferenceValues& r,
@@ -896,7 +1015,10 @@ private:
             else
                 put_unit(q.unit, info);
             out_.put("||");  // OBX-7, OBX-8 empty: limits and flags belong to the measured value
-            end_obx(status_);
+            if (v == kPred)
+                end_obx_with_method(status_, r);
+            else
+                end_obx(status_);
         }
     }
 
@@ -940,9 +1062,23 @@ private:
             put_ts(*when, s);
             s.finish();
         }
-        t += "||||";  // OBX-15..17
+        t += "|||";  // OBX-15, OBX-16
+        obx17_at_ = t.size();
+        t += '|';  // OBX-17 (empty but for predicted values), then OBX-18
         append_equipment(t);
         t += kSegmentEnd;
+    }
+
+    // As end_obx, with OBX-17 observation method naming the equation set
+    // (CE text component only: the sets have no code system).
+    void end_obx_with_method(char status, const ReferenceValues& r) {
+        out_.put("|||");
+        out_.put(status);
+        const std::string_view tail(obx_tail_);
+        out_.put(tail.substr(0, obx17_at_));
+        out_.put('^');
+        put_set_name(r);
+        out_.put(tail.substr(obx17_at_));
     }
 
     // OBX-9 .. OBX-18, after OBX-8.
@@ -1012,6 +1148,7 @@ private:
     int nte_set_ = 0;
     std::vector<FindingPlace> homes_;  // per finding; test -1: not written
     std::string obx_tail_;
+    std::size_t obx17_at_ = 0;  // where OBX-17 goes in obx_tail_
 };
 
 }  // namespace

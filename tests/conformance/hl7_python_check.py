@@ -19,7 +19,12 @@ absent, unit), tests[].comments[] and findings[]. Checks per message:
     decimals, OBX-6 unit (unescaped) equal to the neutral unit; an absent
     value has an empty OBX-5 and OBX-11 X;
   - every test comment decodes (hl7's unescape) to an NTE of its OBR group,
-    exactly; every warning or error finding's message is inside a decoded NTE.
+    exactly; every warning or error finding's message is inside a decoded NTE,
+    and so is every quality.* finding (grades, acceptability, repeatability);
+  - each quality.grade finding at tests[i] with values ("FEV1", "A") ... has
+    in OBR group i an ST OBX coded FEV1.grade^...^99PFTGW whose OBX-5 is the
+    grade, and no group has a grade OBX without such a finding (project codes,
+    schemas/README.md "Codes that are not quantities").
 Last line: "N passed, N failed"; exit status 1 on any failure or no input.
 """
 
@@ -85,9 +90,14 @@ def check_message(name, text, neutral, codes, seen_ids):
     for seg in msg:
         sid = field(seg, 0)
         if sid == "OBR":
-            groups.append({"obx": [], "notes": []})
+            groups.append({"obx": [], "notes": [], "grades": {}})
         elif not groups:
             continue
+        elif sid == "OBX" and field(seg, 2) == "ST" and component(seg, 3, 1).endswith(".grade"):
+            name = component(seg, 3, 1)[: -len(".grade")]
+            if component(seg, 3, 3) != "99PFTGW":
+                errors.append(f"grade OBX {name}: OBX-3.3 {component(seg, 3, 3)!r}")
+            groups[-1]["grades"][name] = msg.unescape(field(seg, 5))
         elif sid == "OBX" and field(seg, 4) == "":
             groups[-1]["obx"].append(seg)
         elif sid == "NTE":
@@ -140,9 +150,27 @@ def check_message(name, text, neutral, codes, seen_ids):
             if comment not in group["notes"]:
                 errors.append(f"test {t}: comment {comment!r} not decoded from any NTE")
 
+    want_grades = [{} for _ in groups]
+    for finding in neutral.get("findings", []):
+        if finding.get("rule") != "quality.grade":
+            continue
+        path = finding.get("path", "")
+        if not (path.startswith("tests[") and path.endswith("]") and path[6:-1].isdigit()):
+            continue
+        t = int(path[6:-1])
+        if t < len(want_grades):
+            for v in finding.get("values", []):
+                if v.get("name") in ("FEV1", "FVC", "DLCO"):
+                    want_grades[t][v["name"]] = v.get("value", "")
+    for t, (group, want) in enumerate(zip(groups, want_grades)):
+        if group["grades"] != want:
+            errors.append(f"test {t}: grade OBX {group['grades']} but findings say {want}")
+
     all_notes = [n for g in groups for n in g["notes"]]
     for finding in neutral.get("findings", []):
-        if finding.get("severity") not in ("warning", "error"):
+        travels = finding.get("severity") in ("warning", "error") or \
+            finding.get("rule", "").startswith("quality.")
+        if not travels:
             continue
         if not any(finding["message"] in n for n in all_notes):
             errors.append(f"finding {finding.get('rule')}: message not decoded from any NTE")

@@ -42,6 +42,7 @@ run() {
 }
 run "HL7 v2 read back by Debian python3-hl7 (SI)" /usr/bin/python3 "$here/hl7_python_check.py" "$work/hl7v2" "$work/neutral-json"
 run "HL7 v2 read back by Debian python3-hl7 (traditional)" /usr/bin/python3 "$here/hl7_python_check.py" "$work/hl7v2-traditional" "$work/neutral-json-traditional"
+run "HL7 v2 with --reference both (device and GLI sets) by python3-hl7 and hl7v2-dictionary" bash -c "\"$pftgw\" convert --quiet --reference both --to hl7v2 --out $work/hl7v2-both ${inputs[*]} 2>/dev/null; \"$pftgw\" convert --quiet --reference both --to neutral-json --out $work/neutral-json-both ${inputs[*]} 2>/dev/null; /usr/bin/python3 $here/hl7_python_check.py $work/hl7v2-both $work/neutral-json-both && node $here/hl7_dictionary_check.mjs $work/hl7v2-both"
 run "HL7 v2.5.1 structure against hl7v2-dictionary" node "$here/hl7_dictionary_check.mjs" "$work/hl7v2" "$work/hl7v2-traditional"
 run "FHIR R4 against @medplum/core and fhir" node "$here/fhir_check.mjs" "$work/fhir"
 run "UCUM units against @lhncbc/ucum-lhc" node "$here/ucum_check.mjs" "$work/fhir-json" "$work/hl7v2" "$work/hl7v2-traditional"

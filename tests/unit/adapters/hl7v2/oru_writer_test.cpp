@@ -299,7 +299,8 @@ TEST(OruWriter, ReferenceSetNamedInNote) {
     EXPECT_NE(m.find("NTE|1|L|Reference set 1 (OBX-4 1) for FEV1: GLI Global 2022, version 2023 "
                      "update; computed by the device."),
               std::string::npos);
-    EXPECT_NE(m.find("NTE|2|O|Reference set 2 (OBX-4 2) for FEV1: Local 2019; computed by the "
+    // NTE 2 is set 1's z-score band text.
+    EXPECT_NE(m.find("NTE|3|O|Reference set 2 (OBX-4 2) for FEV1: Local 2019; computed by the "
                      "gateway."),
               std::string::npos);
     EXPECT_EQ(obx_with_code(parse_message(m), "20149-1", "2").field(5), "2.95");
@@ -481,8 +482,9 @@ TEST(OruWriter, InfoFindingsStayOutUnplacedFindingsTravel) {
 TEST(OruWriter, CautionAndContextNotes) {
     const std::string m = write(pftgw::testing::example_normalized_result());
     std::size_t count = 0;
-    for (auto p = m.find("licensed staff"); p != std::string::npos;
-         p = m.find("licensed staff", p + 1))
+    for (auto p = m.find("Results moved and checked by the gateway; interpretation belongs to "
+                         "licensed staff");
+         p != std::string::npos; p = m.find("Results moved and checked", p + 1))
         ++count;
     EXPECT_EQ(count, 3u);
     EXPECT_NE(m.find("-1.645 / -2.5 / -4.0"), std::string::npos);

@@ -19,22 +19,43 @@
 //   options.identifier_system | part_identifier(result id, part); the Patient
 //   keeps the subject's identifiers and the Device the device system. fullUrl is
 //   urn:uuid from SHA-256 of "system|value" (RFC 9562 name-based version 8
-//   layout), so a retry writes identical bytes.
+//   layout), so a retry writes identical bytes. uuid.hpp hashes the shared
+//   "system|<result id>-" prefix once per Bundle and uses the CPU's SHA
+//   instructions where present: the same digests, a fraction of the cost.
 // - Revision 1: POST + ifNoneExist. Revision > 1: Observations and the report
 //   are conditional updates (PUT Type?identifier=...) with status corrected
 //   (DECISIONS.md); Patient and Device stay conditional creates, because a
 //   corrected result is no reason to overwrite the patient or device record.
-// - Interpretation is L / H / N from the first reference set with LLN or ULN,
-//   never LL / HH / A (DECISIONS.md, patient safety).
+// - Interpretation is L / H / N from LLN / ULN only, never LL / HH / A
+//   (DECISIONS.md, patient safety). The set that drives it: the gateway's GLI
+//   set when the policy computed one (origin gateway, equation set "GLI..."),
+//   else the first set with LLN or ULN; the HL7 writer decides the same way.
+//   Every set still goes out as its own referenceRange naming its set, and
+//   with two or more the driving one says so in its text.
+// - Physiology (DEVELOPERS.md, "Physiology and grading"): every warning goes
+//   out as a note where its path points (a value's Observation, else the
+//   test's panel); info findings of the quality.* and adjust.* rules
+//   (grades, maneuver acceptability, repeatability) as well. Grades and
+//   repeatability go on the panel and on the measured Observation they are
+//   about. Each grade is also an Observation of its own, coded in the
+//   project code system (options.code_system_uri) as "FEV1.grade",
+//   "FVC.grade", "DLCO.grade" (the HL7 writer's OBX codes), valueString the
+//   grade letter, derivedFrom the graded value's Observation, a member of the
+//   panel: a grade is not a number and has no LOINC, but as a coded
+//   Observation a quality lead can search for it.
+// - JSON is compact (no indentation): FHIR servers and the conformance checks
+//   need none, and it is a third of the bytes.
 #include "adapters/fhir/bundle_writer.hpp"
 
 #include <array>
 #include <charconv>
 #include <cstdint>
+#include <cstring>
 #include <string_view>
 #include <vector>
 
 #include "adapters/fhir/emitters.hpp"
+#include "adapters/fhir/uuid.hpp"
 #include "gateway/core/identity.hpp"
 
 namespace pftgw::fhir {
@@ -124,59 +145,67 @@ void append_query_encoded(std::string& out, std::string_view text) {
     out.append(text.data() + run_start, text.size() - run_start);
 }
 
-std::string identifier_query(std::string_view system, std::string_view value) {
-    std::string q = "identifier=";
-    append_query_encoded(q, system);
-    q += '|';
-    append_query_encoded(q, value);
-    return q;
-}
-
-// urn:uuid from SHA-256 of "system|value": version 8, variant 10 (RFC 9562,
-// name-based UUIDv8 with SHA-256; from memory). Deterministic across runs.
-std::string urn_uuid(std::string_view system, std::string_view value) {
-    std::string name;
-    name.reserve(system.size() + value.size() + 1);
-    name += system;
-    name += '|';
-    name += value;
-    auto h = sha256(name);
-    constexpr std::uint8_t kVersion8 = 0x80;
-    constexpr std::uint8_t kVariantRfc = 0x80;
-    h[6] = static_cast<std::uint8_t>((h[6] & 0x0F) | kVersion8);
-    h[8] = static_cast<std::uint8_t>((h[8] & 0x3F) | kVariantRfc);
-    constexpr char kHex[] = "0123456789abcdef";
-    constexpr std::string_view kPrefix = "urn:uuid:";
-    char text[kPrefix.size() + 36];
-    std::size_t n = 0;
-    for (char c : kPrefix) text[n++] = c;
-    for (std::size_t i = 0; i < 16; ++i) {
-        if (i == 4 || i == 6 || i == 8 || i == 10) text[n++] = '-';
-        text[n++] = kHex[h[i] >> 4];
-        text[n++] = kHex[h[i] & 0x0F];
-    }
-    return std::string(text, n);
-}
-
 // ---- the plan: every entry's identifier and fullUrl, before writing ---------
 
 struct Part {
-    std::string system;
-    std::string value;     // identifier value
-    std::string full_url;  // urn:uuid:...
-    std::string query;     // identifier=<system>|<value>, URL-encoded
+    std::string_view system;     // options' or the subject's: outlives the write
+    std::string value;           // identifier value
+    bool result_scoped = false;  // value is "<result id>-<part>" in options.identifier_system
+    std::array<char, detail::kUrnUuidChars> uuid{};
+    std::string_view url() const { return {uuid.data(), uuid.size()}; }
 };
+
+void set_uuid(Part& p, const std::array<std::uint8_t, 32>& digest) {
+    std::string text;
+    text.reserve(detail::kUrnUuidChars);
+    detail::append_urn_uuid(text, digest);
+    std::memcpy(p.uuid.data(), text.data(), p.uuid.size());
+}
 
 Part make_part(std::string_view system, std::string value) {
     Part p;
-    p.system = std::string(system);
+    p.system = system;
     p.value = std::move(value);
-    p.full_url = urn_uuid(p.system, p.value);
-    p.query = identifier_query(p.system, p.value);
+    detail::Sha256Stream s;
+    s.update(system);
+    s.update("|");
+    s.update(p.value);
+    set_uuid(p, s.finish());
     return p;
 }
 
+// Parts "<result id>-<part>" in the result's identifier system: the hash of
+// "system|<result id>-" and its query encoding are computed once.
+class PartMaker {
+public:
+    PartMaker(std::string_view system, std::string_view result_id) : system_(system) {
+        prefix_.update(system);
+        prefix_.update("|");
+        prefix_.update(result_id);
+        prefix_.update("-");
+    }
+    Part make(std::string_view result_id, std::string_view part) const {
+        Part p;
+        p.system = system_;
+        p.value = part_identifier(result_id, part);
+        p.result_scoped = true;
+        detail::Sha256Stream s = prefix_;
+        s.update(part);
+        set_uuid(p, s.finish());
+        return p;
+    }
+
+private:
+    std::string_view system_;
+    detail::Sha256Stream prefix_;
+};
+
 enum class DerivedKind { predicted, percent_predicted, z };
+std::string_view variant_suffix(DerivedKind what);
+const QuantityKind* variant_row(const QuantityTable& table, std::string_view kind,
+                                DerivedKind what) {
+    return table.variant_of(kind, variant_suffix(what));
+}
 
 struct DerivedPlan {
     DerivedKind what = DerivedKind::predicted;
@@ -195,6 +224,17 @@ struct ObservationPlan {
     int decimals = kShortestDecimals;
     Part part;
     std::vector<DerivedPlan> derived;
+    std::vector<const Finding*> findings;  // rendered as notes, in result order
+};
+
+// A grade of one test as its own Observation ("FEV1", "A").
+struct GradePlan {
+    std::string kind;
+    std::string grade;
+    std::string code;  // "FEV1.grade"
+    const Finding* finding = nullptr;
+    const Part* graded = nullptr;  // the graded value's Observation, if any
+    Part part;
 };
 
 struct TestPlan {
@@ -203,12 +243,15 @@ struct TestPlan {
     std::string effective;  // the test's time, else the session's; may be empty
     Part panel;
     std::vector<ObservationPlan> observations;
+    std::vector<GradePlan> grades;
+    std::vector<const Finding*> findings;  // the panel's notes after the comments
 };
 
 struct Plan {
     std::string result_id;
-    bool update = false;  // revision > 1: conditional update
-    std::string status;   // Observation / DiagnosticReport status code
+    std::string result_query_prefix;  // "identifier=<system>|<result id>-", encoded
+    bool update = false;              // revision > 1: conditional update
+    std::string status;               // Observation / DiagnosticReport status code
     Part bundle;
     Part patient;
     std::vector<Identifier> patient_identifiers;
@@ -245,26 +288,138 @@ std::string status_code(const NeutralResult& result) {
     return "final";
 }
 
+// Findings the Bundle carries: every warning (errors block delivery), and
+// the physiology engine's info findings on quality and adjustments.
+bool rendered_finding(const Finding& f) {
+    if (f.severity == Severity::warning) return true;
+    if (f.severity != Severity::info) return false;
+    const std::string_view rule = f.rule;
+    return rule.starts_with("quality.") || rule.starts_with("adjust.");
+}
+
+// Findings about a test as a whole that also belong on one value's
+// Observation: grades (the kinds they name) and repeatability.
+bool about_kind(const Finding& f, std::string_view kind) {
+    if (f.rule == "quality.grade") {
+        for (const auto& [k, v] : f.values)
+            if (k == kind) return true;
+        return false;
+    }
+    if (f.rule == "quality.dlco.repeatability") return kind == "DLCO";
+    if (f.rule == "quality.frc-repeatability") return kind == "FRC";
+    return false;
+}
+
+// Also on the panel, though the path names a value: repeatability.
+bool also_on_panel(const Finding& f) {
+    return f.rule == "quality.spirometry.repeatability";
+}
+
+// "tests[N]..." -> N and the rest; false for any other path.
+bool parse_test_path(std::string_view path, std::size_t& test, std::string_view& rest) {
+    constexpr std::string_view kTests = "tests[";
+    if (!path.starts_with(kTests)) return false;
+    std::size_t i = kTests.size();
+    std::size_t n = 0;
+    const std::size_t digits_start = i;
+    while (i < path.size() && path[i] >= '0' && path[i] <= '9') n = n * 10 + (path[i++] - '0');
+    if (i == digits_start || i >= path.size() || path[i] != ']') return false;
+    test = n;
+    rest = path.substr(i + 1);
+    return true;
+}
+
+// ".values[KIND]" followed by nothing, '.' or '[' -> KIND; else empty.
+std::string_view value_kind(std::string_view rest) {
+    constexpr std::string_view kValues = ".values[";
+    if (!rest.starts_with(kValues)) return {};
+    const std::size_t close = rest.find(']', kValues.size());
+    if (close == std::string_view::npos) return {};
+    if (close + 1 < rest.size() && rest[close + 1] != '.' && rest[close + 1] != '[') return {};
+    return rest.substr(kValues.size(), close - kValues.size());
+}
+
+void attach_findings(Plan& plan, const NeutralResult& result) {
+    for (const Finding& f : result.findings) {
+        if (!rendered_finding(f)) continue;
+        std::size_t ti = 0;
+        std::string_view rest;
+        if (!parse_test_path(f.path, ti, rest) || ti >= plan.tests.size()) continue;
+        if (!rest.empty() && rest[0] != '.' && rest[0] != '[') continue;
+        TestPlan& tp = plan.tests[ti];
+        const std::string_view kind = value_kind(rest);
+        bool on_value = false;
+        if (!kind.empty())
+            for (auto& op : tp.observations)
+                if (op.quantity->kind == kind) {
+                    op.findings.push_back(&f);
+                    on_value = true;
+                }
+        if (on_value) {
+            if (also_on_panel(f)) tp.findings.push_back(&f);
+            continue;
+        }
+        // The test itself, a trial, or a value with no Observation: the panel.
+        tp.findings.push_back(&f);
+        for (auto& op : tp.observations)
+            if (about_kind(f, op.quantity->kind)) op.findings.push_back(&f);
+    }
+}
+
+void plan_grades(Plan& plan, const PartMaker& parts, std::vector<std::string>& used_parts) {
+    for (TestPlan& tp : plan.tests) {
+        for (const Finding* f : tp.findings) {
+            if (f->rule != "quality.grade") continue;
+            for (const auto& [kind, grade] : f->values) {
+                if (kind.empty() || grade.empty()) continue;
+                GradePlan g;
+                g.kind = kind;
+                g.grade = grade;
+                g.code = kind + ".grade";
+                g.finding = f;
+                for (const auto& op : tp.observations)
+                    if (op.quantity->kind == kind) g.graded = &op.part;
+                std::string part = "grade-" + kind;
+                for (const auto& u : used_parts)
+                    if (u == part) part += "-" + std::string(to_string(tp.test->type));
+                used_parts.push_back(part);
+                g.part = parts.make(plan.result_id, part);
+                tp.grades.push_back(std::move(g));
+            }
+        }
+    }
+}
+
 Plan make_plan(const NeutralResult& result, const BundleOptions& options,
                const QuantityTable& table) {
     Plan plan;
     plan.result_id = result.id.empty() ? result_identifier(result) : result.id;
     plan.update = result.revision > 1;
     plan.status = status_code(result);
-    const auto& sys = options.identifier_system;
-    plan.bundle = make_part(
-        sys, part_identifier(plan.result_id, "bundle-r" + std::to_string(result.revision)));
+    const std::string_view sys = options.identifier_system;
+    const PartMaker parts(sys, plan.result_id);
+    plan.result_query_prefix = "identifier=";
+    append_query_encoded(plan.result_query_prefix, sys);
+    plan.result_query_prefix += '|';
+    append_query_encoded(plan.result_query_prefix, plan.result_id);
+    plan.result_query_prefix += '-';
+    plan.bundle = parts.make(plan.result_id, "bundle-r" + std::to_string(result.revision));
 
     for (const auto& id : result.subject.identifiers)
         if (!id.system.empty() && !id.value.empty()) plan.patient_identifiers.push_back(id);
     if (!plan.patient_identifiers.empty()) {
-        const auto& first = plan.patient_identifiers.front();
-        plan.patient = make_part(first.system, first.value);
+        // The result's own identifier (it outlives the write; Part keeps a view).
+        for (const auto& id : result.subject.identifiers)
+            if (!id.system.empty() && !id.value.empty()) {
+                plan.patient = make_part(id.system, id.value);
+                break;
+            }
     } else {
         // No subject identifier (validation blocks this for FHIR): a
         // result-scoped one keeps the create conditional.
-        plan.patient = make_part(sys, part_identifier(plan.result_id, "patient"));
-        plan.patient_identifiers.push_back({plan.patient.system, plan.patient.value, ""});
+        plan.patient = parts.make(plan.result_id, "patient");
+        plan.patient_identifiers.push_back(
+            {std::string(plan.patient.system), plan.patient.value, ""});
     }
 
     const auto& dev = result.device;
@@ -273,6 +428,7 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
     if (plan.has_device) plan.device = make_part(options.device_identifier_system, device_value);
 
     std::vector<std::string> used_parts;
+    plan.tests.reserve(result.tests.size());
     for (std::size_t ti = 0; ti < result.tests.size(); ++ti) {
         const Test& test = result.tests[ti];
         TestPlan tp;
@@ -283,8 +439,8 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
         else if (result.session_time)
             tp.effective = to_iso(*result.session_time);
         if (plan.report_effective.empty()) plan.report_effective = tp.effective;
-        tp.panel = make_part(
-            sys, part_identifier(plan.result_id, "panel-" + std::string(to_string(test.type))));
+        tp.panel = parts.make(plan.result_id, "panel-" + std::string(to_string(test.type)));
+        tp.observations.reserve(test.values.size());
         for (const Quantity& q : test.values) {
             ObservationPlan op;
             op.test_index = ti;
@@ -296,7 +452,7 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
             for (const auto& u : used_parts)
                 if (u == part) part += "-" + std::string(to_string(test.type));
             used_parts.push_back(part);
-            op.part = make_part(sys, part_identifier(plan.result_id, part));
+            op.part = parts.make(plan.result_id, part);
 
             for (std::size_t ri = 0; ri < q.reference.size(); ++ri) {
                 const ReferenceValues& ref = q.reference[ri];
@@ -306,7 +462,7 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
                     {DerivedKind::z, &ref.z_score}};
                 for (const auto& [what, number] : wanted) {
                     if (!number->has_value()) continue;
-                    const QuantityKind* row = table.variant_of(q.kind, variant_suffix(what));
+                    const QuantityKind* row = variant_row(table, q.kind, what);
                     if (row == nullptr) continue;  // written as note text instead
                     DerivedPlan dp;
                     dp.what = what;
@@ -321,7 +477,7 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
                     if (ri > 0) dpart += "-" + std::to_string(ri + 1);
                     if (part.size() > 4 + q.kind.size())  // test-qualified measured part
                         dpart += part.substr(4 + q.kind.size());
-                    dp.part = make_part(sys, part_identifier(plan.result_id, dpart));
+                    dp.part = parts.make(plan.result_id, dpart);
                     op.derived.push_back(std::move(dp));
                 }
             }
@@ -329,7 +485,9 @@ Plan make_plan(const NeutralResult& result, const BundleOptions& options,
         }
         plan.tests.push_back(std::move(tp));
     }
-    plan.report = make_part(sys, part_identifier(plan.result_id, "report"));
+    attach_findings(plan, result);
+    plan_grades(plan, parts, used_parts);
+    plan.report = parts.make(plan.result_id, "report");
     if (result.session_time) plan.report_effective = to_iso(*result.session_time);
     return plan;
 }
@@ -356,6 +514,7 @@ public:
                 measured_entry(tp, op);
                 for (const auto& dp : op.derived) derived_entry(tp, op, dp);
             }
+            for (const auto& g : tp.grades) grade_entry(tp, g);
             panel_entry(tp);
         }
         report_entry();
@@ -364,11 +523,36 @@ public:
     }
 
 private:
+    // A `note` array opened at its first item, so nothing is written when
+    // there is no note; text() is a reused buffer for the next note.
+    class NoteList {
+    public:
+        explicit NoteList(BundleWalk& w) : w_(w) { w_.scratch_.clear(); }
+        ~NoteList() {
+            if (open_) w_.e_.end_array();
+        }
+        std::string& text() { return w_.scratch_; }
+        void add() {
+            add(std::string_view(w_.scratch_));
+            w_.scratch_.clear();
+        }
+        void add(std::string_view t) {
+            if (t.empty()) return;
+            if (!open_) w_.e_.begin_array("note");
+            open_ = true;
+            w_.note_item(t);
+        }
+
+    private:
+        BundleWalk& w_;
+        bool open_ = false;
+    };
+
     // ---- entries ----
 
     void begin_entry(const Part& part, std::string_view type) {
         e_.begin_item();
-        e_.string("fullUrl", part.full_url);
+        e_.string("fullUrl", part.url());
         e_.begin_resource(type);
     }
 
@@ -376,13 +560,27 @@ private:
     void end_entry(const Part& part, std::string_view type, bool may_update) {
         e_.end_resource();
         e_.begin_object("request");
-        const std::string& query = part.query;
+        // identifier=<system>|<value>, URL-encoded, so identifiers with spaces
+        // or '&' still make one search.
+        std::string& query = scratch_;
+        query.clear();
+        if (may_update && plan_.update) {
+            query += type;
+            query += '?';
+        }
+        if (part.result_scoped) {
+            query += plan_.result_query_prefix;
+            append_query_encoded(query,
+                                 std::string_view(part.value).substr(plan_.result_id.size() + 1));
+        } else {
+            query += "identifier=";
+            append_query_encoded(query, part.system);
+            query += '|';
+            append_query_encoded(query, part.value);
+        }
         if (may_update && plan_.update) {
             e_.string("method", "PUT");
-            std::string url(type);
-            url += '?';
-            url += query;
-            e_.string("url", url);
+            e_.string("url", query);
         } else {
             e_.string("method", "POST");
             e_.string("url", type);
@@ -517,9 +715,32 @@ private:
         e_.end_array();
         device_reference();
         e_.begin_array("derivedFrom");
-        reference_item(op.part.full_url);
+        reference_item(op.part.url());
         e_.end_array();
         end_entry(dp.part, "Observation", true);
+    }
+
+    void grade_entry(const TestPlan& tp, const GradePlan& g) {
+        begin_entry(g.part, "Observation");
+        observation_head(g.part, tp);
+        std::string& display = scratch_;
+        display.assign(g.kind);
+        display += " quality grade";
+        codeable_concept("code", options_.code_system_uri, g.code, display, display);
+        references_and_time(tp);
+        e_.string("valueString", g.grade);
+        {
+            NoteList notes(*this);
+            finding_note(notes, *g.finding);
+        }
+        method(*tp.test);
+        device_reference();
+        if (g.graded != nullptr) {
+            e_.begin_array("derivedFrom");
+            reference_item(g.graded->url());
+            e_.end_array();
+        }
+        end_entry(g.part, "Observation", true);
     }
 
     void panel_entry(const TestPlan& tp) {
@@ -537,8 +758,13 @@ private:
         for (const auto& op : tp.observations) {
             if (!any) e_.begin_array("hasMember");
             any = true;
-            reference_item(op.part.full_url);
-            for (const auto& dp : op.derived) reference_item(dp.part.full_url);
+            reference_item(op.part.url());
+            for (const auto& dp : op.derived) reference_item(dp.part.url());
+        }
+        for (const auto& g : tp.grades) {
+            if (!any) e_.begin_array("hasMember");
+            any = true;
+            reference_item(g.part.url());
         }
         if (any) e_.end_array();
         end_entry(tp.panel, "Observation", true);
@@ -552,11 +778,11 @@ private:
         e_.string("status", plan_.status);
         codeable_concept("code", kLoincUri, kPulmonaryFunctionPanelLoinc,
                          "Pulmonary function panel", "Pulmonary function tests");
-        reference_object("subject", plan_.patient.full_url);
+        reference_object("subject", plan_.patient.url());
         e_.string("effectiveDateTime", plan_.report_effective);
         if (!plan_.tests.empty()) {
             e_.begin_array("result");
-            for (const auto& tp : plan_.tests) reference_item(tp.panel.full_url);
+            for (const auto& tp : plan_.tests) reference_item(tp.panel.url());
             e_.end_array();
         }
         end_entry(plan_.report, "DiagnosticReport", true);
@@ -564,18 +790,25 @@ private:
 
     // ---- Observation pieces ----
 
+    // Fragment slots (emitters.hpp): bytes the same in every Observation.
+    static constexpr std::size_t kStatusCategorySlot = 0;
+    static constexpr std::size_t kSubjectSlot = 1;
+    static constexpr std::size_t kDeviceSlot = 2;
+
     void observation_head(const Part& part, const TestPlan&) {
         identifier_array(part);
-        e_.string("status", plan_.status);
-        e_.begin_array("category");
-        e_.begin_item();
-        coding_array(kCategoryUri, "procedure", "Procedure");
-        e_.end_item();
-        e_.end_array();
+        e_.fragment(kStatusCategorySlot, [&] {
+            e_.string("status", plan_.status);
+            e_.begin_array("category");
+            e_.begin_item();
+            coding_array(kCategoryUri, "procedure", "Procedure");
+            e_.end_item();
+            e_.end_array();
+        });
     }
 
     void references_and_time(const TestPlan& tp) {
-        reference_object("subject", plan_.patient.full_url);
+        e_.fragment(kSubjectSlot, [&] { reference_object("subject", plan_.patient.url()); });
         e_.string("effectiveDateTime", tp.effective);
     }
 
@@ -603,10 +836,16 @@ private:
         e_.end_object();
     }
 
-    const ReferenceValues* primary_limits(const Quantity& q) const {
-        for (const auto& ref : q.reference)
-            if (ref.lln || ref.uln) return &ref;
-        return nullptr;
+    // The set that drives the interpretation (header comment): the gateway's
+    // GLI set when the policy computed one, else the first with LLN or ULN.
+    static const ReferenceValues* primary_limits(const Quantity& q) {
+        const ReferenceValues* first = nullptr;
+        for (const auto& ref : q.reference) {
+            if (!ref.lln && !ref.uln) continue;
+            if (ref.origin == Origin::gateway && ref.equation_set.starts_with("GLI")) return &ref;
+            if (first == nullptr) first = &ref;
+        }
+        return first;
     }
 
     void interpretation(const Quantity& q) {
@@ -643,40 +882,53 @@ private:
         codeable_concept("dataAbsentReason", kDataAbsentReasonUri, code, "", text);
     }
 
-    void measured_notes(const TestPlan& tp, const ObservationPlan& op) {
+    void measured_notes(const TestPlan&, const ObservationPlan& op) {
         const Quantity& q = *op.quantity;
-        std::vector<std::string> notes;
+        NoteList notes(*this);
         if (q.condition == GasCondition::btps || q.condition == GasCondition::stpd ||
-            q.condition == GasCondition::atps || q.condition == GasCondition::atpd)
-            notes.push_back("Gas condition: " + std::string(to_string(q.condition)) + ".");
+            q.condition == GasCondition::atps || q.condition == GasCondition::atpd) {
+            std::string& text = notes.text();
+            text += "Gas condition: ";
+            text += to_string(q.condition);
+            text += '.';
+            notes.add();
+        }
         if (q.origin == Origin::gateway) {
-            std::string text = "Computed by the gateway";
-            for (std::size_t i = 0; i < q.derived_from.size(); ++i)
-                text += (i == 0 ? " from " : ", ") + q.derived_from[i];
-            notes.push_back(text + ".");
+            std::string& text = notes.text();
+            text += "Computed by the gateway";
+            for (std::size_t i = 0; i < q.derived_from.size(); ++i) {
+                text += i == 0 ? " from " : ", ";
+                text += q.derived_from[i];
+            }
+            text += '.';
+            notes.add();
         }
         for (const auto& ref : q.reference) {
-            std::string text = "Reference values: " + equation_label(ref) + ", computed by the " +
-                               std::string(to_string(ref.origin)) + ".";
+            std::string& text = notes.text();
+            text += "Reference values: ";
+            append_equation_label(text, ref);
+            text += ", computed by the ";
+            text += to_string(ref.origin);
+            text += '.';
             // Values the table has no variant row for travel as text, never lost.
             append_unrowed(text, q, ref, op);
-            notes.push_back(std::move(text));
-            if (ref.z_score) notes.push_back(z_band_text(*ref.z_score));
+            notes.add();
+            if (ref.z_score) {
+                append_z_band_text(notes.text(), *ref.z_score);
+                notes.add();
+            }
         }
-        const std::string prefix =
-            "tests[" + std::to_string(tp.test_index) + "].values[" + q.kind + "]";
-        for (const auto& f : result_.findings) {
-            if (f.severity != Severity::warning) continue;
-            if (f.path.compare(0, prefix.size(), prefix) != 0) continue;
-            if (f.path.size() > prefix.size() && f.path[prefix.size()] != '.' &&
-                f.path[prefix.size()] != '[')
-                continue;
-            notes.push_back("Warning " + f.rule + ": " + f.message);
-        }
-        if (notes.empty()) return;
-        e_.begin_array("note");
-        for (const auto& n : notes) note_item(n);
-        e_.end_array();
+        for (const Finding* f : op.findings) finding_note(notes, *f);
+    }
+
+    // A finding as note text: "Warning <rule>: <message>" (or "Info ...").
+    void finding_note(NoteList& notes, const Finding& f) {
+        std::string& text = notes.text();
+        text += f.severity == Severity::warning ? "Warning " : "Info ";
+        text += f.rule;
+        text += ": ";
+        text += f.message;
+        notes.add();
     }
 
     void append_unrowed(std::string& text, const Quantity& q, const ReferenceValues& ref,
@@ -698,27 +950,21 @@ private:
     }
 
     void panel_notes(const TestPlan& tp) {
-        std::vector<std::string_view> notes;
-        for (const auto& c : tp.test->comments)
-            if (!c.empty()) notes.push_back(c);
-        const std::string prefix = "tests[" + std::to_string(tp.test_index) + "]";
-        std::vector<std::string> warnings;
-        for (const auto& f : result_.findings) {
-            if (f.severity != Severity::warning) continue;
-            if (f.path != prefix && f.path.compare(0, prefix.size() + 1, prefix + ".") != 0)
-                continue;
-            if (f.path.compare(0, prefix.size() + 7, prefix + ".values") == 0) continue;
-            warnings.push_back("Warning " + f.rule + ": " + f.message);
-        }
-        if (notes.empty() && warnings.empty()) return;
-        e_.begin_array("note");
-        for (auto n : notes) note_item(n);
-        for (const auto& w : warnings) note_item(w);
-        e_.end_array();
+        NoteList notes(*this);
+        for (const auto& c : tp.test->comments) notes.add(c);
+        for (const Finding* f : tp.findings) finding_note(notes, *f);
     }
 
     static std::string z_band_text(double z) {
-        std::string text = "z-score " + std::string(format_decimal(z, 2).view()) + ": ";
+        std::string text;
+        append_z_band_text(text, z);
+        return text;
+    }
+
+    static void append_z_band_text(std::string& text, double z) {
+        text += "z-score ";
+        text += format_decimal(z, 2).view();
+        text += ": ";
         if (z > kZUpperLimit)
             text += "above +1.645.";
         else if (z >= kZBandLimit)
@@ -731,13 +977,22 @@ private:
             text += "below -4.0.";
         text += ' ';
         text += kZBandText;
-        return text;
     }
 
     static std::string equation_label(const ReferenceValues& ref) {
-        std::string label = ref.equation_set.empty() ? "unnamed equation set" : ref.equation_set;
-        if (!ref.equation_version.empty()) label += " (" + ref.equation_version + ")";
+        std::string label;
+        append_equation_label(label, ref);
         return label;
+    }
+
+    static void append_equation_label(std::string& out, const ReferenceValues& ref) {
+        out += ref.equation_set.empty() ? std::string_view("unnamed equation set")
+                                        : std::string_view(ref.equation_set);
+        if (!ref.equation_version.empty()) {
+            out += " (";
+            out += ref.equation_version;
+            out += ')';
+        }
     }
 
     void method(const Test& test) {
@@ -748,12 +1003,17 @@ private:
     }
 
     void device_reference() {
-        if (plan_.has_device) reference_object("device", plan_.device.full_url);
+        if (plan_.has_device)
+            e_.fragment(kDeviceSlot, [&] { reference_object("device", plan_.device.url()); });
     }
 
     void reference_ranges(const ObservationPlan& op) {
         const Quantity& q = *op.quantity;
         bool any = false;
+        std::size_t with_limits = 0;
+        for (const auto& ref : q.reference)
+            if (ref.lln || ref.uln) ++with_limits;
+        const ReferenceValues* primary = q.value ? primary_limits(q) : nullptr;
         for (const auto& ref : q.reference) {
             if (!ref.lln && !ref.uln) continue;
             if (!any) e_.begin_array("referenceRange");
@@ -762,11 +1022,16 @@ private:
             e_.begin_item();
             if (ref.lln) simple_quantity("low", *ref.lln, op.decimals, q.unit);
             if (ref.uln) simple_quantity("high", *ref.uln, op.decimals, q.unit);
-            std::string text = ref.lln && ref.uln ? "Lower and upper limits of normal"
-                               : ref.lln          ? "Lower limit of normal"
-                                                  : "Upper limit of normal";
-            text += " from " + equation_label(ref) + ", computed by the " +
-                    std::string(to_string(ref.origin)) + ".";
+            std::string& text = scratch_;
+            text = ref.lln && ref.uln ? "Lower and upper limits of normal"
+                   : ref.lln          ? "Lower limit of normal"
+                                      : "Upper limit of normal";
+            text += " from ";
+            append_equation_label(text, ref);
+            text += ", computed by the ";
+            text += to_string(ref.origin);
+            text += '.';
+            if (with_limits > 1 && &ref == primary) text += " This range sets the interpretation.";
             e_.string("text", text);
             e_.end_item();
         }
@@ -780,11 +1045,12 @@ private:
     void derived_from_kinds(const TestPlan& tp, const Quantity& q) {
         bool any = false;
         for (const auto& kind : q.derived_from) {
+            if (kind == q.kind) continue;  // never itself (a per-test mean of maneuvers)
             const Part* target = find_measured(tp, kind);
             if (target == nullptr) continue;
             if (!any) e_.begin_array("derivedFrom");
             any = true;
-            reference_item(target->full_url);
+            reference_item(target->url());
         }
         if (any) e_.end_array();
     }
@@ -859,6 +1125,7 @@ private:
     const NeutralResult& result_;
     const BundleOptions& options_;
     const Plan& plan_;
+    std::string scratch_;  // one text at a time (query, note), capacity reused
 };
 
 }  // namespace

@@ -5,6 +5,10 @@
 #include <cstdint>
 #include <cstring>
 
+#if defined(__SSE2__)
+#include <emmintrin.h>
+#endif
+
 namespace pftgw::fhir::detail {
 
 namespace {
@@ -23,69 +27,90 @@ struct EscapeTable {
 };
 constexpr EscapeTable kEscape{};
 
-// True when any of 8 bytes may need JSON escaping (< 0x20, '"' or '\\'): the
-// "has zero byte" / "has less than" bit tricks (S. Anderson, Bit Twiddling
-// Hacks). A false positive only sends the word to the byte loop.
-inline bool word_may_need_json_escape(std::uint64_t w) {
-    constexpr std::uint64_t kOnes = 0x0101010101010101ULL;
-    constexpr std::uint64_t kHighs = 0x8080808080808080ULL;
-    const std::uint64_t below_space = (w - kOnes * 0x20) & ~w & kHighs;
-    const std::uint64_t q = w ^ (kOnes * '"');
-    const std::uint64_t b = w ^ (kOnes * '\\');
-    return (below_space | ((q - kOnes) & ~q & kHighs) | ((b - kOnes) & ~b & kHighs)) != 0;
+#if defined(__SSE2__)
+// Bit i set when byte i of the 16 needs JSON escaping (< 0x20, '"' or '\\').
+inline unsigned json_escape_mask(const char* p) {
+    const __m128i v = _mm_loadu_si128(reinterpret_cast<const __m128i*>(p));
+    const __m128i control = _mm_cmpeq_epi8(_mm_min_epu8(v, _mm_set1_epi8(0x1F)), v);
+    const __m128i quote = _mm_cmpeq_epi8(v, _mm_set1_epi8('"'));
+    const __m128i backslash = _mm_cmpeq_epi8(v, _mm_set1_epi8('\\'));
+    return static_cast<unsigned>(
+        _mm_movemask_epi8(_mm_or_si128(control, _mm_or_si128(quote, backslash))));
+}
+#endif
+
+void append_json_escape(std::string& out, unsigned char c) {
+    switch (c) {
+        case '"':
+            out += "\\\"";
+            break;
+        case '\\':
+            out += "\\\\";
+            break;
+        case '\b':
+            out += "\\b";
+            break;
+        case '\f':
+            out += "\\f";
+            break;
+        case '\n':
+            out += "\\n";
+            break;
+        case '\r':
+            out += "\\r";
+            break;
+        case '\t':
+            out += "\\t";
+            break;
+        default: {
+            const char esc[] = {'\\', 'u', '0', '0', kHexDigits[c >> 4], kHexDigits[c & 0x0F]};
+            out.append(esc, sizeof esc);
+        }
+    }
 }
 }  // namespace
 
-void append_json_escaped(std::string& out, std::string_view text) {
+std::size_t json_safe_prefix(std::string_view text) {
     const char* p = text.data();
     const std::size_t n = text.size();
-    std::size_t run_start = 0;
     std::size_t i = 0;
-    while (i < n) {
-        if (i + 8 <= n) {
-            std::uint64_t w;
-            std::memcpy(&w, p + i, 8);
-            if (!word_may_need_json_escape(w)) {
-                i += 8;
-                continue;
-            }
-        }
-        for (const std::size_t end = std::min(i + 8, n); i < end; ++i) {
-            const auto c = static_cast<unsigned char>(p[i]);
-            if (!kEscape.json[c]) continue;
-            out.append(p + run_start, i - run_start);
-            run_start = i + 1;
-            switch (c) {
-                case '"':
-                    out += "\\\"";
-                    break;
-                case '\\':
-                    out += "\\\\";
-                    break;
-                case '\b':
-                    out += "\\b";
-                    break;
-                case '\f':
-                    out += "\\f";
-                    break;
-                case '\n':
-                    out += "\\n";
-                    break;
-                case '\r':
-                    out += "\\r";
-                    break;
-                case '\t':
-                    out += "\\t";
-                    break;
-                default: {
-                    const char esc[] = {
-                        '\\', 'u', '0', '0', kHexDigits[c >> 4], kHexDigits[c & 0x0F]};
-                    out.append(esc, sizeof esc);
-                }
-            }
-        }
+#if defined(__SSE2__)
+    // 16 bytes at a time; the tail is copied into a block padded with a byte
+    // that needs no escaping, so nothing past the text is read.
+    constexpr std::size_t kBlock = 16;
+    for (; i + kBlock <= n; i += kBlock)
+        if (const unsigned m = json_escape_mask(p + i); m != 0)
+            return i + static_cast<std::size_t>(__builtin_ctz(m));
+    if (i < n) {
+        char tail[kBlock];
+        std::memset(tail, 'a', kBlock);
+        std::memcpy(tail, p + i, n - i);
+        if (const unsigned m = json_escape_mask(tail); m != 0)
+            return i + static_cast<std::size_t>(__builtin_ctz(m));
     }
-    out.append(p + run_start, n - run_start);
+    return n;
+#else
+    for (; i < n; ++i)
+        if (kEscape.json[static_cast<unsigned char>(p[i])]) return i;
+    return n;
+#endif
+}
+
+void append_json_escaped(std::string& out, std::string_view text) {
+    std::size_t safe = json_safe_prefix(text);
+    if (safe == text.size()) {
+        out.append(text.data(), text.size());
+        return;
+    }
+    // Escapes are rare (a quote or line break in free text): bytewise from here.
+    out.append(text.data(), safe);
+    for (std::size_t i = safe; i < text.size(); ++i) {
+        const auto c = static_cast<unsigned char>(text[i]);
+        if (kEscape.json[c])
+            append_json_escape(out, c);
+        else
+            out += text[i];
+    }
 }
 
 void append_xml_escaped(std::string& out, std::string_view text) {

@@ -3,6 +3,7 @@
 // needs and JSON does not mind. Internal to adapters/fhir.
 #pragma once
 
+#include <array>
 #include <cstring>
 #include <string>
 #include <string_view>
@@ -13,6 +14,13 @@ namespace pftgw::fhir::detail {
 // JSON string body: quotes, backslash and control characters escaped
 // (RFC 8259 section 7); other bytes, UTF-8 included, passed through.
 void append_json_escaped(std::string& out, std::string_view text);
+
+// Length of the longest prefix of text that needs no JSON escaping.
+std::size_t json_safe_prefix(std::string_view text);
+
+// Slots of the fragments a Bundle writes many times with the same bytes
+// (fragment() below).
+inline constexpr std::size_t kFragmentSlots = 4;
 
 // XML attribute text: & < > " escaped, tab / LF / CR as character references
 // (kept by attribute-value normalization, XML 1.0 section 3.3.3); other control
@@ -45,9 +53,53 @@ public:
     // A primitive; empty text is never written (FHIR has no empty strings).
     void string(std::string_view name, std::string_view text) {
         if (text.empty()) return;
+        // Most values need no escaping: `,"name":"text"` in one append.
+        if (name.size() + text.size() + 6 <= kInlineBytes &&
+            json_safe_prefix(text) == text.size()) {
+            char buf[kInlineBytes];
+            std::size_t n = 0;
+            if (comma_) buf[n++] = ',';
+            buf[n++] = '"';
+            std::memcpy(buf + n, name.data(), name.size());
+            n += name.size();
+            buf[n++] = '"';
+            buf[n++] = ':';
+            buf[n++] = '"';
+            std::memcpy(buf + n, text.data(), text.size());
+            n += text.size();
+            buf[n++] = '"';
+            out_.append(buf, n);
+            comma_ = true;
+            return;
+        }
         key(name, '"');
         append_json_escaped(out_, text);
         out_ += '"';
+        comma_ = true;
+    }
+
+    // Content that is the same every time within one Bundle (a category, the
+    // subject reference): written by `write` the first time, then copied.
+    // The walk still calls the same emitter methods, so JSON and XML agree.
+    template <class Write>
+    void fragment(std::size_t slot, Write&& write) {
+        std::string& cached = fragments_[slot];
+        if (cached.empty()) {
+            // Recorded with its leading comma, which is dropped when not due.
+            const bool had_comma = comma_;
+            comma_ = true;
+            const std::size_t start = out_.size();
+            write();
+            if (out_.size() == start) {
+                comma_ = had_comma;
+                return;
+            }
+            cached.assign(out_, start, std::string::npos);
+            if (!had_comma) out_.erase(start, 1);
+        } else {
+            const std::size_t skip = comma_ ? 0 : 1;
+            out_.append(cached.data() + skip, cached.size() - skip);
+        }
         comma_ = true;
     }
     // A decimal already formatted as a JSON number.
@@ -118,6 +170,7 @@ private:
         out_.append(buf, n);
     }
     static constexpr std::size_t kMaxKeyBytes = 64;
+    static constexpr std::size_t kInlineBytes = 256;
     void close(char c) {
         out_ += c;
         comma_ = true;
@@ -125,6 +178,7 @@ private:
 
     std::string& out_;
     bool comma_ = false;
+    std::array<std::string, kFragmentSlots> fragments_;
 };
 
 // Writes FHIR XML: namespace http://hl7.org/fhir, primitives as value
@@ -164,6 +218,18 @@ public:
     }
     void decimal(std::string_view name, std::string_view number) {
         value_element(name, number, false);
+    }
+
+    template <class Write>
+    void fragment(std::size_t slot, Write&& write) {
+        std::string& cached = fragments_[slot];
+        if (!cached.empty()) {
+            out_ += cached;
+            return;
+        }
+        const std::size_t start = out_.size();
+        write();
+        cached.assign(out_, start, std::string::npos);
     }
 
     void begin_object(std::string_view name) {
@@ -219,6 +285,7 @@ private:
 
     std::string& out_;
     std::vector<std::string_view> names_;
+    std::array<std::string, kFragmentSlots> fragments_;
 };
 
 }  // namespace pftgw::fhir::detail

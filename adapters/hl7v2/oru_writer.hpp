@@ -4,8 +4,17 @@
 //   MSH PID { ORC OBR [NTE...] { OBX [NTE...] } }   one ORC/OBR group per test
 // Choices this writer makes (DEVELOPERS.md "Decisions of our own" lists them too):
 // - segments end in CR; no MLLP framing; MSH-18 is always "UNICODE UTF-8";
-// - OBX-8 is L / H / N against the first reference set's LLN / ULN only, compared
-//   at the displayed decimals; a value equal to LLN or ULN is N; never LL / HH / A;
+// - OBX-7 / OBX-8 use one reference set: the first the gateway computed (the
+//   reference policy, a GLI set) when it has a limit, else the first set; with
+//   two or more sets an NTE names the one used. OBX-8 is L / H / N against its
+//   LLN / ULN only, compared at the displayed decimals; a value equal to LLN or
+//   ULN is N; never LL / HH / A. z-score bands (-1.645 / -2.5 / -4.0) are NTE text;
+// - every set goes out (OBX-4 = set number), named in an NTE and in OBX-17
+//   (CE text) of its predicted-value OBX;
+// - grades (finding quality.grade) are ST OBX coded FEV1.grade / FVC.grade /
+//   DLCO.grade in 99PFTGW after the test's quantities; warnings, errors and the
+//   info findings quality.* and adjust.* are NTE under the OBX or OBR their
+//   path names; other info findings are for `pftgw check` only;
 // - predicted, LLN, ULN, z-score and percent predicted are OBX of their own,
 //   coded by the quantity table's variant rows, OBX-4 = the reference set number;
 // - an absent quantity is an OBX with empty OBX-2/OBX-5 and OBX-11 "X"

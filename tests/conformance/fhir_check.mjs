@@ -63,7 +63,10 @@ function walk(dir, out = []) {
   }
   return out;
 }
-const files = walk(folder);
+// `pftgw convert` also writes its run summary (summary.json, summary.xml) and
+// rejects.jsonl beside the Bundles; those are not FHIR and are not checked.
+const runFiles = new Set(['summary.json', 'summary.xml', 'rejects.jsonl']);
+const files = walk(folder).filter((f) => !runFiles.has(basename(f)));
 const jsonFiles = files.filter((f) => f.endsWith('.json'));
 const xmlFiles = files.filter((f) => f.endsWith('.xml'));
 

@@ -50,6 +50,7 @@ struct ConvertOptions {
     InputOptions input;
     unsigned jobs = 0;  // 0: every core
     bool quiet = false;
+    bool dry_run = false;  // convert everything, write nothing
 };
 
 enum class Outcome { written, skipped, blocked, unreadable, failed };
@@ -155,9 +156,11 @@ public:
         settings_.units = units;
         process_.targets = {f.target};
         signature_ = options_signature(o);
-        done_ = load_manifest(out_dir_);
-        manifest_.open(out_dir_ / kManifestName, std::ios::app);
-        rejects_.open(out_dir_ / kRejectsName, std::ios::trunc);
+        if (!o.dry_run) {
+            done_ = load_manifest(out_dir_);
+            manifest_.open(out_dir_ / kManifestName, std::ios::app);
+            rejects_.open(out_dir_ / kRejectsName, std::ios::trunc);
+        }
         jobs_ = o.jobs ? o.jobs : std::max(1u, std::thread::hardware_concurrency());
     }
 
@@ -216,20 +219,24 @@ public:
                                         {"topFindings", top},
                                         {"rejects", kRejectsName},
                                         {"caution", kCaution}};
-        std::ofstream(out_dir_ / kSummaryName) << summary.dump(2) << "\n";
+        if (!o_.dry_run) std::ofstream(out_dir_ / kSummaryName) << summary.dump(2) << "\n";
         if (o_.quiet) return;
         print_summary(stdout, counts, rule_counts, o_.out_dir);
         if (skipped > 0)
             fmt::print("skipped {} already written by an earlier run with the same options\n",
                        skipped);
+        if (o_.dry_run) {
+            fmt::print("{:.1f} s, {} jobs; dry run: nothing written\n", seconds, jobs_);
+            return;
+        }
         fmt::print("{:.1f} s, {} jobs; summary.json and rejects.jsonl in {}\n", seconds, jobs_,
                    o_.out_dir);
     }
 
 private:
     void convert_one(Work& w) {
-        w.key = sha256_hex(signature_ + "\x1f" + resume_material(w.item));
-        if (done_.count(w.key)) {
+        if (!o_.dry_run) w.key = sha256_hex(signature_ + "\x1f" + resume_material(w.item));
+        if (!o_.dry_run && done_.count(w.key)) {
             w.outcome = Outcome::skipped;
             return;
         }
@@ -257,7 +264,7 @@ private:
             case Outcome::written:
                 // Written here, in input order, so that two inputs with the same
                 // result id end the same way whatever the number of jobs.
-                if (!write_file(out_dir_ / w.relative_path, w.bytes, w.error)) {
+                if (!o_.dry_run && !write_file(out_dir_ / w.relative_path, w.bytes, w.error)) {
                     fmt::print(stderr, "pftgw convert: {}\n", w.error);
                     write_failed = true;
                     break;
@@ -348,8 +355,13 @@ int run_convert(const ConvertOptions& o) {
         fmt::print(stderr, "pftgw convert: --units must be si or traditional, not '{}'\n", o.units);
         return kExitUsage;
     }
+    if (o.out_dir.empty() && !o.dry_run) {
+        fmt::print(stderr,
+                   "pftgw convert: --out DIR is required (or --dry-run to write nothing)\n");
+        return kExitUsage;
+    }
     std::error_code ec;
-    fs::create_directories(o.out_dir, ec);
+    if (!o.dry_run) fs::create_directories(o.out_dir, ec);
     if (ec) {
         fmt::print(stderr, "pftgw convert: cannot create --out folder {}: {}\n", o.out_dir,
                    ec.message());
@@ -392,8 +404,10 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
     sub->add_option("--to", opts->to, "Output format: " + format_names())->required();
     sub->add_option("--units", opts->units, "Unit system of the output values: si or traditional")
         ->capture_default_str();
-    sub->add_option("--out", opts->out_dir, "Folder for the output files (created if missing)")
-        ->required();
+    sub->add_option("--out", opts->out_dir, "Folder for the output files (created if missing)");
+    sub->add_flag("--dry-run", opts->dry_run,
+                  "Read, check and convert everything but write nothing (to time a run, or to see "
+                  "what an archive would give)");
     sub->add_option("--sending-facility", opts->writer.sending_facility, "HL7 MSH-4");
     sub->add_option("--receiving-application", opts->writer.receiving_application, "HL7 MSH-5");
     sub->add_option("--receiving-facility", opts->writer.receiving_facility, "HL7 MSH-6");

@@ -30,7 +30,8 @@ done
 "$pftgw" convert --quiet --to hl7v2 --units traditional --out "$work/hl7v2-traditional" "${inputs[@]}" 2>/dev/null
 "$pftgw" convert --quiet --to neutral-json --units traditional --out "$work/neutral-json-traditional" "${inputs[@]}" 2>/dev/null
 mkdir -p "$work/fhir"
-cp "$work"/fhir-json/*.json "$work/fhir/"
+# summary.json is pftgw convert's run summary, not a Bundle.
+find "$work/fhir-json" -maxdepth 1 -name '*.json' ! -name summary.json -exec cp {} "$work/fhir/" \;
 cp "$work"/fhir-xml/*.xml "$work/fhir/"
 
 passed=0
@@ -48,5 +49,11 @@ run "FHIR R4 against @medplum/core and fhir" node "$here/fhir_check.mjs" "$work/
 run "UCUM units against @lhncbc/ucum-lhc" node "$here/ucum_check.mjs" "$work/fhir-json" "$work/hl7v2" "$work/hl7v2-traditional"
 run "neutral XML against the XSD with xmllint" bash "$here/xsd_check.sh" "$pftgw"
 run "neutral JSON against the JSON Schema with ajv" node "$here/json_schema_check.mjs" "$pftgw"
+# HL7 ACKs: until the daemon sends them, the reader's gtest writes the ACKs of
+# tests/conformance/hl7_ack_inputs/ (OruReaderAckDump), compared with python3-hl7's create_ack.
+acks="$work/acks"
+mkdir -p "$acks"
+PFTGW_HL7_ACK_DIR="$acks" "$(dirname "$pftgw")/tests/hl7v2_tests" --gtest_filter='OruReaderAckDump*' > /dev/null
+run "HL7 ACKs against Debian python3-hl7 create_ack" /usr/bin/python3 "$here/hl7_ack_check.py" "$here/hl7_ack_inputs" "$acks"
 echo "conformance: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

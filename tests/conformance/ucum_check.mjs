@@ -123,6 +123,7 @@ for (const folder of process.argv.slice(2)) {
     const name = relative(folder, file);
     const units = [];
     try {
+      if (file.endsWith('summary.json')) continue;  // pftgw convert's run summary
       if (file.endsWith('.json')) fhirUnits(JSON.parse(readFileSync(file, 'utf8')), units);
       else if (file.endsWith('.hl7')) hl7Units(readFileSync(file, 'utf8'), units);
       else continue;

@@ -81,13 +81,9 @@ std::size_t json_safe_prefix(std::string_view text) {
     for (; i + kBlock <= n; i += kBlock)
         if (const unsigned m = json_escape_mask(p + i); m != 0)
             return i + static_cast<std::size_t>(__builtin_ctz(m));
-    if (i < n) {
-        char tail[kBlock];
-        std::memset(tail, 'a', kBlock);
-        std::memcpy(tail, p + i, n - i);
-        if (const unsigned m = json_escape_mask(tail); m != 0)
-            return i + static_cast<std::size_t>(__builtin_ctz(m));
-    }
+    // The tail bytewise: reading past the text is not allowed.
+    for (; i < n; ++i)
+        if (kEscape.json[static_cast<unsigned char>(p[i])]) return i;
     return n;
 #else
     for (; i < n; ++i)

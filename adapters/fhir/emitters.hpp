@@ -3,6 +3,7 @@
 // needs and JSON does not mind. Internal to adapters/fhir.
 #pragma once
 
+#include <algorithm>
 #include <array>
 #include <cstring>
 #include <string>
@@ -27,25 +28,50 @@ inline constexpr std::size_t kFragmentSlots = 4;
 // characters cannot be written in XML 1.0 and become U+FFFD.
 void append_xml_escaped(std::string& out, std::string_view text);
 
+// Copies a short run without a library call (most runs here are keys, codes
+// and URLs of a few dozen bytes); long runs go to memcpy.
+inline void copy_bytes(char* dst, const char* src, std::size_t n) {
+    constexpr std::size_t kLong = 32;
+    if (n > kLong) {
+        std::memcpy(dst, src, n);
+    } else if (n >= 16) {
+        std::memcpy(dst, src, 16);  // two overlapping 16-byte moves
+        std::memcpy(dst + n - 16, src + n - 16, 16);
+    } else if (n >= 8) {
+        std::memcpy(dst, src, 8);
+        std::memcpy(dst + n - 8, src + n - 8, 8);
+    } else if (n >= 4) {
+        std::memcpy(dst, src, 4);
+        std::memcpy(dst + n - 4, src + n - 4, 4);
+    } else {
+        for (std::size_t i = 0; i < n; ++i) dst[i] = src[i];
+    }
+}
+
 // Streams JSON into a string; no DOM. Every begin_* has its end_*.
+// The string is grown in large steps and written in place (used_ bytes are
+// real); end_root() trims it, so the output is complete after end_root().
 class JsonEmitter {
 public:
-    explicit JsonEmitter(std::string& out) : out_(out) {}
+    explicit JsonEmitter(std::string& out) : out_(out), used_(out.size()) {}
 
     void begin_root(std::string_view type) {
-        out_ += "{\"resourceType\":\"";
-        out_ += type;
-        out_ += '"';
+        put("{\"resourceType\":\"");
+        put(type);
+        put('"');
         comma_ = true;
     }
-    void end_root() { out_ += "}\n"; }
+    void end_root() {
+        put("}\n");
+        out_.resize(used_);
+    }
 
     // Bundle.entry.resource: {"resourceType": type, ...}
     void begin_resource(std::string_view type) {
         key("resource");
-        out_ += "{\"resourceType\":\"";
-        out_ += type;
-        out_ += '"';
+        put("{\"resourceType\":\"");
+        put(type);
+        put('"');
         comma_ = true;
     }
     void end_resource() { close('}'); }
@@ -53,28 +79,22 @@ public:
     // A primitive; empty text is never written (FHIR has no empty strings).
     void string(std::string_view name, std::string_view text) {
         if (text.empty()) return;
-        // Most values need no escaping: `,"name":"text"` in one append.
-        if (name.size() + text.size() + 6 <= kInlineBytes &&
-            json_safe_prefix(text) == text.size()) {
-            char buf[kInlineBytes];
-            std::size_t n = 0;
-            if (comma_) buf[n++] = ',';
-            buf[n++] = '"';
-            std::memcpy(buf + n, name.data(), name.size());
-            n += name.size();
-            buf[n++] = '"';
-            buf[n++] = ':';
-            buf[n++] = '"';
-            std::memcpy(buf + n, text.data(), text.size());
-            n += text.size();
-            buf[n++] = '"';
-            out_.append(buf, n);
-            comma_ = true;
-            return;
-        }
         key(name, '"');
-        append_json_escaped(out_, text);
-        out_ += '"';
+        if (json_safe_prefix(text) == text.size()) {
+            // Most values need no escaping.
+            put(text);
+        } else {
+            out_.resize(used_);
+            append_json_escaped(out_, text);
+            used_ = out_.size();
+        }
+        put('"');
+        comma_ = true;
+    }
+    // A decimal already formatted as a JSON number.
+    void decimal(std::string_view name, std::string_view number) {
+        key(name);
+        put(number);
         comma_ = true;
     }
 
@@ -88,24 +108,21 @@ public:
             // Recorded with its leading comma, which is dropped when not due.
             const bool had_comma = comma_;
             comma_ = true;
-            const std::size_t start = out_.size();
+            const std::size_t start = used_;
             write();
-            if (out_.size() == start) {
+            if (used_ == start) {
                 comma_ = had_comma;
                 return;
             }
-            cached.assign(out_, start, std::string::npos);
-            if (!had_comma) out_.erase(start, 1);
+            cached.assign(out_.data() + start, used_ - start);
+            if (!had_comma) {
+                std::memmove(out_.data() + start, out_.data() + start + 1, used_ - start - 1);
+                --used_;
+            }
         } else {
             const std::size_t skip = comma_ ? 0 : 1;
-            out_.append(cached.data() + skip, cached.size() - skip);
+            put(std::string_view(cached).substr(skip));
         }
-        comma_ = true;
-    }
-    // A decimal already formatted as a JSON number.
-    void decimal(std::string_view name, std::string_view number) {
-        key(name);
-        out_ += number;
         comma_ = true;
     }
 
@@ -123,17 +140,19 @@ public:
 
     void begin_item() {
         if (comma_)
-            out_.append(",{", 2);
+            put(",{");
         else
-            out_ += '{';
+            put('{');
         comma_ = false;
     }
     void end_item() { close('}'); }
     void string_item(std::string_view text) {
-        separate();
-        out_ += '"';
+        if (comma_) put(',');
+        put('"');
+        out_.resize(used_);
         append_json_escaped(out_, text);
-        out_ += '"';
+        used_ = out_.size();
+        put('"');
         comma_ = true;
     }
     // An item of an `extension` array: url is a member in JSON.
@@ -144,39 +163,38 @@ public:
     void end_extension() { end_item(); }
 
 private:
-    void separate() {
-        if (comma_) out_ += ',';
+    // Growth step: resize() zero-fills what it adds, so add little at a time
+    // (the capacity is kept, so this costs no allocation once warmed up).
+    static constexpr std::size_t kGrowBytes = 4 * 1024;
+    char* room(std::size_t n) {
+        if (used_ + n > out_.size()) out_.resize(used_ + n + kGrowBytes);
+        char* p = out_.data() + used_;
+        used_ += n;
+        return p;
     }
-    // `,"name":` and an optional opening character, in one append: single-character
-    // appends dominated the profile.
+    void put(std::string_view text) { copy_bytes(room(text.size()), text.data(), text.size()); }
+    void put(char c) { *room(1) = c; }
+
+    // `,"name":` and an optional opening character.
     void key(std::string_view name, char open = 0) {
-        char buf[kMaxKeyBytes];
-        if (name.size() + 5 > sizeof buf) {
-            separate();
-            out_ += '"';
-            out_ += name;
-            out_ += "\":";
-            if (open != 0) out_ += open;
-            return;
-        }
+        char* p = room(name.size() + 5);
         std::size_t n = 0;
-        if (comma_) buf[n++] = ',';
-        buf[n++] = '"';
-        std::memcpy(buf + n, name.data(), name.size());
+        if (comma_) p[n++] = ',';
+        p[n++] = '"';
+        copy_bytes(p + n, name.data(), name.size());
         n += name.size();
-        buf[n++] = '"';
-        buf[n++] = ':';
-        if (open != 0) buf[n++] = open;
-        out_.append(buf, n);
+        p[n++] = '"';
+        p[n++] = ':';
+        if (open != 0) p[n++] = open;
+        used_ -= name.size() + 5 - n;  // room() took the most it could need
     }
-    static constexpr std::size_t kMaxKeyBytes = 64;
-    static constexpr std::size_t kInlineBytes = 256;
     void close(char c) {
-        out_ += c;
+        put(c);
         comma_ = true;
     }
 
     std::string& out_;
+    std::size_t used_;
     bool comma_ = false;
     std::array<std::string, kFragmentSlots> fragments_;
 };

@@ -697,22 +697,29 @@ private:
         // The equation set as an extension of the project's own naming.
         e_.begin_array("extension");
         e_.begin_extension(options_.equation_extension_url);
-        e_.string("valueString", equation_label(*dp.reference));
+        scratch_.clear();
+        append_equation_label(scratch_, *dp.reference);
+        e_.string("valueString", scratch_);
         e_.end_extension();
         e_.end_array();
         observation_head(dp.part, tp);
         quantity_code(dp.kind, dp.kind->key);
         references_and_time(tp);
         quantity_value("valueQuantity", dp.value, dp.decimals, dp.unit);
-        std::string who = "Computed by the ";
-        who += to_string(dp.reference->origin);
-        who += " from ";
-        who += equation_label(*dp.reference);
-        who += '.';
-        e_.begin_array("note");
-        note_item(who);
-        if (dp.what == DerivedKind::z) note_item(z_band_text(dp.value));
-        e_.end_array();
+        {
+            NoteList notes(*this);
+            std::string& who = notes.text();
+            who += "Computed by the ";
+            who += to_string(dp.reference->origin);
+            who += " from ";
+            append_equation_label(who, *dp.reference);
+            who += '.';
+            notes.add();
+            if (dp.what == DerivedKind::z) {
+                append_z_band_text(notes.text(), dp.value);
+                notes.add();
+            }
+        }
         device_reference();
         e_.begin_array("derivedFrom");
         reference_item(op.part.url());
@@ -955,12 +962,6 @@ private:
         for (const Finding* f : tp.findings) finding_note(notes, *f);
     }
 
-    static std::string z_band_text(double z) {
-        std::string text;
-        append_z_band_text(text, z);
-        return text;
-    }
-
     static void append_z_band_text(std::string& text, double z) {
         text += "z-score ";
         text += format_decimal(z, 2).view();
@@ -977,12 +978,6 @@ private:
             text += "below -4.0.";
         text += ' ';
         text += kZBandText;
-    }
-
-    static std::string equation_label(const ReferenceValues& ref) {
-        std::string label;
-        append_equation_label(label, ref);
-        return label;
     }
 
     static void append_equation_label(std::string& out, const ReferenceValues& ref) {

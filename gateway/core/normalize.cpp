@@ -4,8 +4,9 @@
 
 #include <charconv>
 #include <cmath>
-#include <functional>
+#include <optional>
 #include <string>
+#include <string_view>
 #include <utility>
 
 #include "gateway/core/derive.hpp"
@@ -57,31 +58,37 @@ void append_note(std::string& steps, const std::string& note) {
     steps += note;
 }
 
-// A unit change as a function of the value; `slope` is the factor recorded in
-// the Derivation (for the affine temperature units, the multiplicative part).
+// A unit change: a factor, or for the affine temperature units a conversion
+// through convert_unit(); `slope` is the factor recorded in the Derivation
+// (for the affine units, the multiplicative part). A plain struct rather than
+// a std::function: it runs for every converted number. `from` and `to` must
+// outlive it (they name the quantity's unit and the table's).
 struct UnitChange {
-    std::function<double(double)> apply;
+    std::string_view from;
+    std::string_view to;
     double slope = 1.0;
+    bool affine = false;
+
+    double apply(double v) const {
+        if (!affine) return v * slope;
+        auto r = convert_unit(v, from, to);
+        return r ? *r : v;
+    }
 };
 
 // Only called for two known units of one dimension.
-UnitChange unit_change(const std::string& from, const std::string& to) {
-    if (auto f = unit_factor(from, to)) {
-        const double factor = *f;
-        return {[factor](double v) { return v * factor; }, factor};
-    }
-    auto at = [from, to](double v) {
-        auto r = convert_unit(v, from, to);
-        return r ? *r : v;
-    };
-    return {at, at(1.0) - at(0.0)};
+UnitChange unit_change(std::string_view from, std::string_view to) {
+    if (auto f = unit_factor(from, to)) return {from, to, *f, false};
+    UnitChange at{from, to, 1.0, true};
+    at.slope = at.apply(1.0) - at.apply(0.0);
+    return at;
 }
 
-void apply_to_reference(ReferenceValues& r, const std::function<double(double)>& f) {
+void apply_to_reference(ReferenceValues& r, const UnitChange& change) {
     // z-score and percent predicted are unitless: unchanged.
-    if (r.predicted) r.predicted = f(*r.predicted);
-    if (r.lln) r.lln = f(*r.lln);
-    if (r.uln) r.uln = f(*r.uln);
+    if (r.predicted) r.predicted = change.apply(*r.predicted);
+    if (r.lln) r.lln = change.apply(*r.lln);
+    if (r.uln) r.uln = change.apply(*r.uln);
 }
 
 bool has_reference_numbers(const ReferenceValues& r) {
@@ -95,7 +102,7 @@ void render_reference(Quantity& q, const std::string& target) {
         if (!has_reference_numbers(r) || r.unit.empty() || r.unit == target ||
             !same_dimension(r.unit, target))
             continue;
-        apply_to_reference(r, unit_change(r.unit, target).apply);
+        apply_to_reference(r, unit_change(r.unit, target));
         r.unit = target;
     }
 }
@@ -107,27 +114,61 @@ bool has_convertible_number(const Quantity& q) {
     return false;
 }
 
-using Visitor = std::function<void(Quantity&, const std::string&)>;
+// Where a quantity sits in a result, rendered to text only when a finding
+// names it: building "tests[1].values[FEV1]" for every quantity cost more
+// than normalizing an already canonical one.
+struct QuantityPath {
+    std::string_view field;  // "environment.temperature", ...; empty for a test's value
+    std::size_t test = 0;
+    std::optional<std::size_t> trial;
+    std::string_view kind;
 
+    static QuantityPath named(std::string_view field) { return {field, 0, std::nullopt, {}}; }
+    static QuantityPath value(std::size_t test, std::optional<std::size_t> trial,
+                              std::string_view kind) {
+        return {{}, test, trial, kind};
+    }
+
+    std::string str() const {
+        if (!field.empty()) return std::string(field);
+        std::string out = "tests[" + std::to_string(test) + "]";
+        if (trial) out += ".trials[" + std::to_string(*trial) + "]";
+        out += ".values[";
+        out += kind;
+        out += ']';
+        return out;
+    }
+};
+
+// The visitors are templates, not std::function: they run for every quantity.
 // The two quantities the gas conversions read.
-void for_each_ambient(NeutralResult& r, const Visitor& visit) {
-    if (r.environment.temperature) visit(*r.environment.temperature, "environment.temperature");
-    if (r.environment.pressure) visit(*r.environment.pressure, "environment.pressure");
+template <class Visit>
+void for_each_ambient(NeutralResult& r, Visit&& visit) {
+    if (r.environment.temperature)
+        visit(*r.environment.temperature, QuantityPath::named("environment.temperature"));
+    if (r.environment.pressure)
+        visit(*r.environment.pressure, QuantityPath::named("environment.pressure"));
 }
 
 // Every other quantity of a result, with its path.
-void for_each_other(NeutralResult& r, const Visitor& visit) {
-    if (r.environment.humidity) visit(*r.environment.humidity, "environment.humidity");
-    if (r.subject.height) visit(*r.subject.height, "subject.height");
-    if (r.subject.weight) visit(*r.subject.weight, "subject.weight");
+template <class Visit>
+void for_each_other(NeutralResult& r, Visit&& visit) {
+    if (r.environment.humidity)
+        visit(*r.environment.humidity, QuantityPath::named("environment.humidity"));
+    if (r.subject.height) visit(*r.subject.height, QuantityPath::named("subject.height"));
+    if (r.subject.weight) visit(*r.subject.weight, QuantityPath::named("subject.weight"));
     for (std::size_t i = 0; i < r.tests.size(); ++i) {
         Test& t = r.tests[i];
-        const std::string test_path = "tests[" + std::to_string(i) + "]";
-        for (Quantity& q : t.values) visit(q, test_path + ".values[" + q.kind + "]");
+        for (Quantity& q : t.values) visit(q, QuantityPath::value(i, std::nullopt, q.kind));
         for (std::size_t j = 0; j < t.trials.size(); ++j)
-            for (Quantity& q : t.trials[j].values)
-                visit(q, test_path + ".trials[" + std::to_string(j) + "].values[" + q.kind + "]");
+            for (Quantity& q : t.trials[j].values) visit(q, QuantityPath::value(i, j, q.kind));
     }
+}
+
+// A unit already known to units.cpp is of its own dimension: a value already
+// in the canonical unit (the common case) needs no second walk of the unit table.
+bool known_unit_fits(const std::string& known_unit, const std::string& canonical) {
+    return known_unit == canonical || same_dimension(known_unit, canonical);
 }
 
 class Normalizer {
@@ -143,38 +184,38 @@ public:
             ambient_.pressure_kpa = env.pressure->value;
     }
 
-    void normalize(Quantity& q, const std::string& path) {
+    void normalize(Quantity& q, const QuantityPath& path) {
         if (q.absent_reason) return;  // an explicit "not measured" is not a finding
         fill_source(q);
         const QuantityKind* k = table_.find(q.kind);
         if (!k) {
-            report("quantity.unknown-kind", path + ".kind",
+            report("quantity.unknown-kind", path.str() + ".kind",
                    "kind '" + q.kind + "' is not in the quantity table (schemas/quantities.csv)",
                    {{"kind", q.kind}});
             return;
         }
         if (!q.value && !q.source.value_text.empty())
-            report("value.not-numeric", path + ".value",
+            report("value.not-numeric", path.str() + ".value",
                    q.kind + " value '" + q.source.value_text + "' is not a number",
                    {{"value", q.source.value_text}});
         if (!has_convertible_number(q)) return;
 
         // The unit.
         if (q.unit.empty()) {
-            report("unit.missing", path + ".unit",
+            report("unit.missing", path.str() + ".unit",
                    q.kind + " has no unit; expected one of " + joined_units(*k),
                    {{"unit", q.source.unit_text}});
             return;
         }
         if (!is_known_unit(q.unit)) {
-            report("unit.unknown", path + ".unit",
+            report("unit.unknown", path.str() + ".unit",
                    q.kind + " unit '" + q.unit + "' is not a UCUM unit the gateway knows; " +
                        "expected one of " + joined_units(*k),
                    {{"unit", q.unit}});
             return;
         }
-        if (!k->accepts(q.unit) || !same_dimension(q.unit, k->canonical_unit)) {
-            report("unit.mismatch", path + ".unit",
+        if (!k->accepts(q.unit) || !known_unit_fits(q.unit, k->canonical_unit)) {
+            report("unit.mismatch", path.str() + ".unit",
                    q.kind + " in '" + q.unit + "' does not fit the kind; expected one of " +
                        joined_units(*k),
                    {{"unit", q.unit}});
@@ -189,7 +230,7 @@ public:
         bool implied = false;
         if (target == GasCondition::none || !is_gas(target)) {
             if (is_gas(from)) {
-                report("condition.mismatch", path + ".condition",
+                report("condition.mismatch", path.str() + ".condition",
                        q.kind + " is not a gas volume or flow; condition " + cond_name(from) +
                            " does not apply (expected none)",
                        {{"condition", cond_name(from)}});
@@ -198,7 +239,7 @@ public:
             from = target;
         } else if (from == GasCondition::unspecified) {
             if (!k->implied_condition || !is_gas(*k->implied_condition)) {
-                report("condition.missing", path + ".condition",
+                report("condition.missing", path.str() + ".condition",
                        q.kind + " has no gas condition; expected " + cond_name(target) +
                            " (or ATPS/ATPD with the ambient temperature and pressure)",
                        {{"condition", q.source.condition_text}});
@@ -207,7 +248,7 @@ public:
             from = *k->implied_condition;
             implied = true;
         } else if (!is_gas(from)) {
-            report("condition.mismatch", path + ".condition",
+            report("condition.mismatch", path.str() + ".condition",
                    q.kind + " is a gas quantity at " + cond_name(target) + "; condition " +
                        cond_name(from) + " does not fit",
                    {{"condition", cond_name(from)}});
@@ -223,7 +264,7 @@ public:
                      ambient_.temperature_cel ? number(*ambient_.temperature_cel) : "absent"},
                     {"environment.pressure",
                      ambient_.pressure_kpa ? number(*ambient_.pressure_kpa) : "absent"}};
-                report("condition.ambient-missing", path + ".condition",
+                report("condition.ambient-missing", path.str() + ".condition",
                        q.kind + " at " + cond_name(from) + " cannot be taken to " +
                            cond_name(target) + ": " + f.error().message +
                            " (environment.temperature in Cel, environment.pressure in kPa)",
@@ -241,7 +282,7 @@ public:
             return;
         }
         const UnitChange uc = unit_changes ? unit_change(q.unit, k->canonical_unit) : UnitChange{};
-        auto convert = [&](double v) { return (uc.apply ? uc.apply(v) : v) * gas; };
+        auto convert = [&](double v) { return (unit_changes ? uc.apply(v) : v) * gas; };
         Derivation d = q.derivation.value_or(Derivation{});
         d.factor *= uc.slope * gas;
         if (unit_changes) append_step(d.steps, q.unit, k->canonical_unit);
@@ -263,28 +304,30 @@ public:
 
     // Each reference set to the canonical unit; a set that names no unit is
     // in the quantity's unit as sent (called before the value is converted).
-    void normalize_reference(Quantity& q, const QuantityKind& k, const std::string& path) {
+    void normalize_reference(Quantity& q, const QuantityKind& k, const QuantityPath& path) {
         for (std::size_t i = 0; i < q.reference.size(); ++i) {
             ReferenceValues& r = q.reference[i];
             if (!has_reference_numbers(r)) continue;
-            const std::string from = r.unit.empty() ? q.unit : r.unit;
-            const std::string rpath = path + ".reference[" + std::to_string(i) + "].unit";
+            const std::string& from = r.unit.empty() ? q.unit : r.unit;
+            const auto rpath = [&] {
+                return path.str() + ".reference[" + std::to_string(i) + "].unit";
+            };
             if (!is_known_unit(from)) {
                 report(
-                    "unit.unknown", rpath,
+                    "unit.unknown", rpath(),
                     q.kind + " reference unit '" + from + "' is not a UCUM unit the gateway knows",
                     {{"unit", from}});
                 continue;
             }
-            if (!k.accepts(from) || !same_dimension(from, k.canonical_unit)) {
-                report("unit.mismatch", rpath,
+            if (!k.accepts(from) || !known_unit_fits(from, k.canonical_unit)) {
+                report("unit.mismatch", rpath(),
                        q.kind + " reference values in '" + from +
                            "' do not fit the kind; expected one of " + joined_units(k),
                        {{"unit", from}});
                 continue;
             }
             if (from != k.canonical_unit)
-                apply_to_reference(r, unit_change(from, k.canonical_unit).apply);
+                apply_to_reference(r, unit_change(from, k.canonical_unit));
             r.unit = k.canonical_unit;
         }
     }
@@ -340,7 +383,7 @@ void append_new(std::vector<Finding>& to, const std::vector<Finding>& add) {
 
 std::vector<Finding> normalize(NeutralResult& result, const QuantityTable& table) {
     Normalizer n(table);
-    const Visitor visit = [&n](Quantity& q, const std::string& path) { n.normalize(q, path); };
+    const auto visit = [&n](Quantity& q, const QuantityPath& path) { n.normalize(q, path); };
     // The ambient values first: the gas conversions read them normalized.
     for_each_ambient(result, visit);
     n.set_ambient(result);
@@ -355,7 +398,7 @@ std::vector<Finding> normalize(NeutralResult& result, const QuantityTable& table
 NeutralResult render_units(const NeutralResult& normalized, UnitSystem system,
                            const QuantityTable& table) {
     NeutralResult out = normalized;
-    const Visitor render = [&](Quantity& q, const std::string&) {
+    const auto render = [&](Quantity& q, const QuantityPath&) {
         if (q.absent_reason) return;
         const QuantityKind* k = table.find(q.kind);
         if (!k) return;

@@ -118,6 +118,7 @@ public:
         : result_(result), target_(target), table_(table) {}
 
     std::vector<Finding> run() {
+        resolve_kinds();
         check_completeness();
         check_plausibility();
         for (std::size_t i = 0; i < result_.tests.size(); ++i) check_test_consistency(i);
@@ -126,6 +127,18 @@ public:
     }
 
 private:
+    // Each reported value's table row, looked up once: a lookup is a binary
+    // search over string keys, and plausibility, test type and consistency
+    // would otherwise each repeat it for every value.
+    void resolve_kinds() {
+        kinds_.resize(result_.tests.size());
+        for (std::size_t i = 0; i < result_.tests.size(); ++i) {
+            const auto& values = result_.tests[i].values;
+            kinds_[i].reserve(values.size());
+            for (const Quantity& q : values) kinds_[i].push_back(table_.find(q.kind));
+        }
+    }
+
     void add(std::string rule, Severity severity, std::string path, std::string message,
              std::vector<std::pair<std::string, std::string>> values) {
         findings_.push_back(Finding{std::move(rule), severity, std::move(path), std::move(message),
@@ -221,7 +234,9 @@ private:
 
     // ---- plausibility ----
 
-    void plausible(const QuantityKind& kind, double v, const std::string& path) {
+    // `path` makes the finding's path: called only when there is a finding.
+    template <class PathFn>
+    void plausible(const QuantityKind& kind, double v, const PathFn& path) {
         if (v >= kind.plausible_min && v <= kind.plausible_max) return;  // NaN fails too
         const int d = kind.decimals_si;
         // The text shown must itself be outside the range, or the message
@@ -230,22 +245,21 @@ private:
         double back = 0;
         if (parse_number(text, back) && back >= kind.plausible_min && back <= kind.plausible_max)
             text = shortest(v);
-        add("plausible.range", Severity::error, path,
+        add("plausible.range", Severity::error, path(),
             kind.trade_name + " = " + with_unit(text, kind.canonical_unit) +
                 " is outside the plausible range " + seen_text(kind.plausible_min, d) + "-" +
                 with_unit(seen_text(kind.plausible_max, d), kind.canonical_unit),
             {{kind.key, shortest(v)}});
     }
 
-    void check_quantity_plausible(const Quantity& q, const std::string& path) {
-        const QuantityKind* kind = table_.find(q.kind);
+    template <class PathFn>
+    void check_quantity_plausible(const Quantity& q, const QuantityKind* kind, const PathFn& path) {
         // Unknown kinds and non-canonical units were reported by the reader or
         // by normalize(); a range in another unit would say nothing.
         if (kind == nullptr) return;
         if (q.value && q.unit == kind->canonical_unit) plausible(*kind, *q.value, path);
         for (std::size_t k = 0; k < q.reference.size(); ++k) {
             const auto& ref = q.reference[k];
-            const std::string ref_path = path + ".reference[" + std::to_string(k) + "]";
             const std::pair<const char*, const std::optional<double>*> parts[] = {
                 {"predicted", &ref.predicted}, {"lln", &ref.lln}, {"uln", &ref.uln}};
             for (const auto& [variant, value] : parts) {
@@ -254,14 +268,18 @@ private:
                 if (vk == nullptr) vk = kind;
                 // A reference set that names no unit is in the quantity's unit.
                 if (vk->canonical_unit != (ref.unit.empty() ? q.unit : ref.unit)) continue;
-                plausible(*vk, **value, ref_path + "." + variant);
+                plausible(*vk, **value, [&, variant = variant] {
+                    return path() + ".reference[" + std::to_string(k) + "]." + variant;
+                });
             }
         }
     }
 
     void check_plausibility() {
         const auto opt = [this](const std::optional<Quantity>& q, const char* path) {
-            if (q) check_quantity_plausible(*q, path);
+            if (q)
+                check_quantity_plausible(*q, table_.find(q->kind),
+                                         [path] { return std::string(path); });
         };
         opt(result_.subject.height, "subject.height");
         opt(result_.subject.weight, "subject.weight");
@@ -270,11 +288,16 @@ private:
         opt(result_.environment.humidity, "environment.humidity");
         for (std::size_t i = 0; i < result_.tests.size(); ++i) {
             const Test& t = result_.tests[i];
-            for (const auto& q : t.values) check_quantity_plausible(q, value_path(i, q.kind));
+            for (std::size_t v = 0; v < t.values.size(); ++v) {
+                const Quantity& q = t.values[v];
+                check_quantity_plausible(q, kinds_[i][v], [&] { return value_path(i, q.kind); });
+            }
             for (std::size_t j = 0; j < t.trials.size(); ++j)
                 for (const auto& q : t.trials[j].values)
-                    check_quantity_plausible(q, test_path(i) + ".trials[" + std::to_string(j) +
-                                                    "].values[" + q.kind + "]");
+                    check_quantity_plausible(q, table_.find(q.kind), [&] {
+                        return test_path(i) + ".trials[" + std::to_string(j) + "].values[" +
+                               q.kind + "]";
+                    });
         }
     }
 
@@ -283,10 +306,14 @@ private:
     // A reported value fit for arithmetic: present, in the canonical unit and,
     // for gas volumes, at the canonical condition. Anything else already has a
     // finding from normalize().
-    const Quantity* usable(const Test& t, std::string_view kind_key) const {
-        const Quantity* q = t.find(kind_key);
-        if (q == nullptr || !q->value) return nullptr;
-        const QuantityKind* kind = table_.find(kind_key);
+    const Quantity* usable(std::size_t test, std::string_view kind_key) const {
+        // The first value of that kind, as Test::find; its row from kinds_.
+        const auto& values = result_.tests[test].values;
+        std::size_t v = 0;
+        while (v < values.size() && values[v].kind != kind_key) ++v;
+        if (v == values.size() || !values[v].value) return nullptr;
+        const Quantity* q = &values[v];
+        const QuantityKind* kind = kinds_[test][v];
         if (kind == nullptr || q->unit != kind->canonical_unit) return nullptr;
         if (kind->canonical_condition != GasCondition::none &&
             q->condition != kind->canonical_condition)
@@ -296,10 +323,10 @@ private:
 
     // Same test first, then any other test (VC may sit in spirometry).
     const Quantity* usable_anywhere(std::size_t i, std::string_view kind_key) const {
-        if (const Quantity* q = usable(result_.tests[i], kind_key)) return q;
+        if (const Quantity* q = usable(i, kind_key)) return q;
         for (std::size_t j = 0; j < result_.tests.size(); ++j)
             if (j != i)
-                if (const Quantity* q = usable(result_.tests[j], kind_key)) return q;
+                if (const Quantity* q = usable(j, kind_key)) return q;
         return nullptr;
     }
 
@@ -313,11 +340,10 @@ private:
     }
 
     void check_test_consistency(std::size_t i) {
-        const Test& t = result_.tests[i];
         check_test_type(i);
 
-        const Quantity* fev1 = usable(t, "FEV1");
-        const Quantity* fvc = usable(t, "FVC");
+        const Quantity* fev1 = usable(i, "FEV1");
+        const Quantity* fvc = usable(i, "FVC");
         if (fev1 && fvc && *fev1->value - *fvc->value > kFev1FvcRoundingL + kFloatSlack)
             add("consistency.fev1-fvc", Severity::error, value_path(i, "FEV1"),
                 "FEV1 " + shown(*fev1) + " is greater than FVC " + shown(*fvc) +
@@ -325,7 +351,7 @@ private:
                     " L rounding)",
                 {{"FEV1", shortest(*fev1->value)}, {"FVC", shortest(*fvc->value)}});
 
-        const Quantity* ratio = usable(t, "FEV1_FVC");
+        const Quantity* ratio = usable(i, "FEV1_FVC");
         if (ratio && fev1 && fvc && *fvc->value > 0) {
             const double computed = *fev1->value / *fvc->value;
             if (std::abs(*ratio->value - computed) > kRatioTolerance + kFloatSlack)
@@ -340,9 +366,9 @@ private:
                      {"FVC", shortest(*fvc->value)}});
         }
 
-        const Quantity* kco = usable(t, "KCO");
-        const Quantity* dlco = usable(t, "DLCO");
-        const Quantity* va = usable(t, "VA");
+        const Quantity* kco = usable(i, "KCO");
+        const Quantity* dlco = usable(i, "DLCO");
+        const Quantity* va = usable(i, "VA");
         if (kco && dlco && va && *va->value > 0) {
             const double computed = *dlco->value / *va->value;
             const int d = decimals("KCO");
@@ -360,7 +386,7 @@ private:
                      {"VA", shortest(*va->value)}});
         }
 
-        const Quantity* tlc = usable(t, "TLC");
+        const Quantity* tlc = usable(i, "TLC");
         const Quantity* rv = tlc ? usable_anywhere(i, "RV") : nullptr;
         const Quantity* vc = tlc ? usable_anywhere(i, "VC") : nullptr;
         if (tlc && rv && vc) {
@@ -380,8 +406,9 @@ private:
     void check_test_type(std::size_t i) {
         const Test& t = result_.tests[i];
         const std::string_view type = to_string(t.type);
-        for (const auto& q : t.values) {
-            const QuantityKind* kind = table_.find(q.kind);
+        for (std::size_t v = 0; v < t.values.size(); ++v) {
+            const Quantity& q = t.values[v];
+            const QuantityKind* kind = kinds_[i][v];
             if (kind == nullptr || kind->test == type) continue;
             add("consistency.test-type", Severity::warning, value_path(i, q.kind),
                 kind->trade_name + " belongs to " + kind->test + " but sits in a " +
@@ -395,11 +422,11 @@ private:
         const Quantity* largest = nullptr;
         for (std::size_t i = 0; i < result_.tests.size(); ++i)
             for (const char* key : {"VC", "FVC"})
-                if (const Quantity* q = usable(result_.tests[i], key))
+                if (const Quantity* q = usable(i, key))
                     if (largest == nullptr || *q->value > *largest->value) largest = q;
         if (largest == nullptr) return;
         for (std::size_t i = 0; i < result_.tests.size(); ++i) {
-            const Quantity* vi = usable(result_.tests[i], "VI");
+            const Quantity* vi = usable(i, "VI");
             if (vi == nullptr) continue;
             const double excess = *vi->value - *largest->value;
             const double allowed = std::max(kViExcessRelative * *largest->value, kViExcessL);
@@ -416,6 +443,7 @@ private:
     const NeutralResult& result_;
     Target target_;
     const QuantityTable& table_;
+    std::vector<std::vector<const QuantityKind*>> kinds_;  // [test][value], see resolve_kinds()
     std::vector<Finding> findings_;
 };
 

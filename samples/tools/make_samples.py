@@ -8,6 +8,7 @@ made here. Run from the repository root: python3 samples/tools/make_samples.py
 """
 import copy
 import json
+import math
 import os
 from xml.sax.saxutils import escape, quoteattr
 
@@ -122,8 +123,8 @@ def env(t=22.0, pb=101.2, pb_unit="kPa", t_unit="Cel", rh=None):
 
 
 def doc(id_, session_no, time, patient, device, tests, environment=None, order=None,
-        revision=1, status="final", replaces=None, extensions=None):
-    d = dict(schemaVersion="1.0", id=id_, revision=revision, status=status)
+        revision=1, status="final", replaces=None, extensions=None, schema="1.0"):
+    d = dict(schemaVersion=schema, id=id_, revision=revision, status=status)
     if replaces:
         d["replaces"] = replaces
     d["deviceSessionNumber"] = session_no
@@ -204,7 +205,7 @@ def to_xml(d):
         for v in t.get("values", []):
             o.append(quantity_xml("value", v, "    "))
         for tr in t.get("trials", []):
-            o.append(f"    <trial{attrs(tr, [('number','number'),('time','time'),('operatorAccepted','operatorAccepted')])}>\n")
+            o.append(f"    <trial{attrs(tr, [('number','number'),('time','time'),('operatorAccepted','operatorAccepted'),('tracer','tracer')])}>\n")
             for v in tr.get("values", []):
                 o.append(quantity_xml("value", v, "      "))
             o.append("    </trial>\n")
@@ -570,6 +571,259 @@ SESSIONS.append(("2026-03-18-ainsley-lung-volumes.json", doc(
         q("ERV", 1.26, "L", "BTPS"),
         q("IC", 3.43, "L", "BTPS"),
         q("RV_TLC", 0.276, "1", "none", ref(GLI21, 0.29, 0.21, 0.37, -0.24))])])))
+
+# ---- sessions with maneuver data (issue 4: recomputation, grades, adjustments) ----
+#
+# Each DLCO maneuver is described by its inspired volume, dead spaces, gas
+# fractions, timing points and pressure; the alveolar fractions are chosen for
+# a target VA and DLCO and rounded as an analyser would send them, and the
+# device's own VA and DLCO are then computed back from the rounded fractions
+# with the single-sample method of ../shared/reference/lung-function-facts.md
+# ("Single-breath DLCO calculation"), so the numbers the device sends follow
+# from its data (except where a session says otherwise on purpose).
+
+MMHG_KPA = 0.133322   # kPa per mmHg (UCUM)
+PH2O_BODY = 47.0      # mmHg, the trade's PH2O at 37 C
+DLCO_SI = 2.987       # mL/min/mmHg per mmol/min/kPa (DECISIONS.md)
+
+
+def jones_meade(t):
+    """Breath-hold from 30 % of the inspiratory time to the middle of the sample."""
+    start = t.get("insp30", t["insp_start"] + 0.3 * (t["insp_end"] - t["insp_start"]))
+    return 0.5 * (t["sample_start"] + t["sample_end"]) - start
+
+
+def single_breath(vi, vd, fico, faco, fitr, fatr, bht, pb_kpa):
+    """VA (L BTPS) and DLCO (mL/min/mmHg, STPD) by the classic single-sample method."""
+    pb = pb_kpa / MMHG_KPA
+    va_btps = (vi - vd) * fitr / fatr
+    btps_to_stpd = (pb - PH2O_BODY) / 760.0 * 273.15 / 310.15
+    va_stpd = va_btps * btps_to_stpd
+    faco0 = fico * fatr / fitr
+    dlco = va_stpd * 60000.0 / (bht * (pb - PH2O_BODY)) * math.log(faco0 / faco)
+    return va_btps, dlco, btps_to_stpd
+
+
+def maneuver(number, time, *, vi, vd_instr, vd_anat, send_vd_anat, fico, fitr, tracer,
+             target_va, target_dlco, timing, pb_kpa, washout=0.80, sample=0.60, insp85=1.6,
+             send_insp30=False, si=True, dlco_factor=1.0, accepted=True, fa_decimals=6):
+    """One single-breath maneuver as a device sends it, and its computed VA and DLCO.
+
+    dlco_factor != 1 makes the device's DLCO deliberately not follow from its data."""
+    vd = vd_instr + vd_anat
+    fatr = round((vi - vd) * fitr / target_va, fa_decimals)
+    bht = jones_meade(timing)
+    pb = pb_kpa / MMHG_KPA
+    va_btps = (vi - vd) * fitr / fatr
+    va_stpd = va_btps * (pb - PH2O_BODY) / 760.0 * 273.15 / 310.15
+    faco0 = fico * fatr / fitr
+    faco = round(faco0 / math.exp(target_dlco * bht * (pb - PH2O_BODY) / (va_stpd * 60000.0)), 6)
+    va, dlco, _ = single_breath(vi, vd, fico, faco, fitr, fatr, bht, pb_kpa)
+    sent = dlco * dlco_factor
+    values = [q("VI", vi, "L", "BTPS"), q("VD_INSTR", vd_instr, "L", "none")]
+    if send_vd_anat:
+        values.append(q("VD_ANAT", vd_anat, "L", "BTPS"))
+    values += [q("FICO", fico, "1", "none"), q("FACO", faco, "1", "none"),
+               q("FITR", fitr, "1", "none"), q("FATR", fatr, "1", "none"),
+               q("T_INSP_START", timing["insp_start"], "s", "none")]
+    if send_insp30:
+        values.append(q("T_INSP_30", timing["insp30"], "s", "none"))
+    values += [q("T_INSP_END", timing["insp_end"], "s", "none"),
+               q("T_INSP_85", insp85, "s", "none"),
+               q("T_SAMPLE_START", timing["sample_start"], "s", "none"),
+               q("T_SAMPLE_END", timing["sample_end"], "s", "none"),
+               q("V_WASHOUT", washout, "L", "BTPS"), q("V_SAMPLE", sample, "L", "BTPS"),
+               q("BHT", round(bht, 1), "s", "none"),
+               q("VA", round(va, 2), "L", "BTPS")]
+    if si:
+        sent_value = round(sent / DLCO_SI, 2)
+        values.append(q("DLCO", sent_value, "mmol/min/kPa", "STPD"))
+    else:
+        sent_value = round(sent, 1)
+        values.append(q("DLCO", sent_value, "mL/min/mm[Hg]", "STPD"))
+    trial = dict(number=number, time=time, operatorAccepted=accepted, tracer=tracer, values=values)
+    return trial, dict(va=round(va, 2), dlco=sent_value, bht=bht)
+
+
+def timing(bht_target, insp_time=2.0, sample_time=1.0):
+    """Timing points for a breath-hold (Jones-Meade) of bht_target s, 0.1 s resolution."""
+    t = dict(insp_start=0.0, insp_end=insp_time, insp30=round(0.3 * insp_time, 2))
+    mid = t["insp30"] + bht_target
+    t["sample_start"] = round(mid - sample_time / 2, 2)
+    t["sample_end"] = round(mid + sample_time / 2, 2)
+    return t
+
+
+def dlco_test(time, trials, summaries, reported, si=True, extra=(), comments=None):
+    """The test-level values a device reports: the mean of the maneuvers named in `reported`."""
+    used = [summaries[n - 1] for n in reported]
+    if si:
+        dlco = round(sum(s["dlco"] for s in used) / len(used), 2)
+        unit, kco_unit = "mmol/min/kPa", "mmol/min/kPa/L"
+    else:
+        dlco = round(sum(s["dlco"] for s in used) / len(used), 1)
+        unit, kco_unit = "mL/min/mm[Hg]", "mL/min/mm[Hg]/L"
+    va = round(sum(s["va"] for s in used) / len(used), 2)
+    values = [q("DLCO", dlco, unit, "STPD", trials=list(reported)),
+              q("VA", va, "L", "BTPS", trials=list(reported)),
+              q("KCO", round(dlco / va, 2), kco_unit, "none")] + list(extra)
+    t = dict(type="diffusing-capacity", method="single-breath", time=time, values=values,
+             trials=trials)
+    if comments:
+        t["comments"] = comments
+    return t
+
+
+def vc_test(time, fev1, fvc):
+    """The spirometry a DLCO device records first, whose FVC is the VC of VI/VC."""
+    return dict(type="spirometry", time=time, values=[
+        q("FEV1", fev1, "L", "BTPS"), q("FVC", fvc, "L", "BTPS"),
+        q("FEV1_FVC", round(fev1 / fvc, 3), "1", "none")])
+
+
+def session_maneuvers(specs, common):
+    trials, summaries = [], []
+    for n, spec in enumerate(specs, start=1):
+        kw = dict(common)
+        kw.update(spec)
+        tr, summary = maneuver(n, **kw)
+        trials.append(tr)
+        summaries.append(summary)
+    return trials, summaries
+
+
+CH4 = dict(fico=0.003, fitr=0.003, tracer="methane", fa_decimals=6)   # DLX2: 0.3 % CO, 0.3 % CH4
+HE = dict(fico=0.003, fitr=0.10, tracer="helium", fa_decimals=5)      # DLX1: 0.3 % CO, 10 % He
+
+# 21. (a) DLCO, DLX2 (SI, methane): three grade-A maneuvers, repeatable; the
+# device's DLCO and VA follow from its fractions; VD_ANAT from body mass.
+common = dict(CH4, vi=3.80, vd_instr=0.150, vd_anat=round(0.0022 * 66, 4), send_vd_anat=False,
+              pb_kpa=101.2, si=True)
+trials, summ = session_maneuvers([
+    dict(time="2026-03-20T09:06:00+01:00", target_va=5.30, target_dlco=25.4, timing=timing(10.0)),
+    dict(time="2026-03-20T09:11:00+01:00", target_va=5.26, target_dlco=24.8, timing=timing(10.2),
+         vi=3.76),
+    dict(time="2026-03-20T09:16:00+01:00", target_va=5.34, target_dlco=25.9, timing=timing(9.8),
+         vi=3.83)], common)
+SESSIONS.append(("2026-03-20-castellow-dlco-maneuvers.json", doc(
+    "KVH-DLX2-D0501", "D0501", "2026-03-20T09:00:00+01:00", "castellow", "DLX2", schema="1.1",
+    environment=env(22.0, 101.2),
+    tests=[vc_test("2026-03-20T09:02:00+01:00", 3.39, 4.01),
+           dlco_test("2026-03-20T09:16:00+01:00", trials, summ, [1, 2, 3],
+                     comments=["Three maneuvers, all acceptable; reported DLCO is their mean"])])))
+
+# 22. (b) DLCO, DLX2: four maneuvers; 2 held only 7.4 s (grade D), 3 inspired
+# VI/VC 0.82 (grade C); 1 and 4 are grade A and repeatable, reported as their mean.
+common = dict(CH4, vi=3.05, vd_instr=0.150, vd_anat=round(0.0022 * 58, 4), send_vd_anat=False,
+              pb_kpa=100.6, si=True, send_insp30=True)
+trials, summ = session_maneuvers([
+    dict(time="2026-03-20T14:05:00+01:00", target_va=4.72, target_dlco=21.2, timing=timing(10.1)),
+    dict(time="2026-03-20T14:10:00+01:00", target_va=4.70, target_dlco=22.6, timing=timing(7.4)),
+    dict(time="2026-03-20T14:15:00+01:00", target_va=4.21, target_dlco=19.1, timing=timing(10.3),
+         vi=round(0.82 * 3.30, 3)),
+    dict(time="2026-03-20T14:20:00+01:00", target_va=4.75, target_dlco=21.8, timing=timing(9.9),
+         vi=3.08)], common)
+SESSIONS.append(("2026-03-20-quist-dlco-maneuvers.xml", doc(
+    "KVH-DLX2-D0502", "D0502", "2026-03-20T14:00:00+01:00", "quist", "DLX2", schema="1.1",
+    environment=env(21.5, 100.6),
+    tests=[vc_test("2026-03-20T14:02:00+01:00", 2.61, 3.30),
+           dlco_test("2026-03-20T14:20:00+01:00", trials, summ, [1, 4],
+                     comments=["Maneuver 2: early expiration; maneuver 3: incomplete inspiration"])])))
+
+# 23. (c) DLCO, DLX1 (traditional, helium): the device's DLCO does not follow
+# from its maneuvers: it is computed with VA at BTPS instead of STPD (a factor
+# 1 / 0.8251 at this pressure), so it reads about 21 % high.
+common = dict(HE, vi=2.62, vd_instr=0.120, vd_anat=0.135, send_vd_anat=True, pb_kpa=100.9,
+              si=False)
+pb = 100.9 / MMHG_KPA
+btps_to_stpd = (pb - PH2O_BODY) / 760.0 * 273.15 / 310.15
+trials, summ = session_maneuvers([
+    dict(time="2026-03-23T10:04:00+01:00", target_va=4.40, target_dlco=19.9, timing=timing(10.0),
+         dlco_factor=1 / btps_to_stpd),
+    dict(time="2026-03-23T10:09:30+01:00", target_va=4.36, target_dlco=19.6, timing=timing(10.4),
+         vi=2.60, dlco_factor=1 / btps_to_stpd)], common)
+SESSIONS.append(("2026-03-23-ilvesson-dlco-maneuvers.xml", doc(
+    "KVH-DLX1-88210", "88210", "2026-03-23T10:00:00+01:00", "ilvesson", "DLX1", schema="1.1",
+    environment=env(22.5, 100.9),
+    tests=[vc_test("2026-03-23T10:02:00+01:00", 2.02, 2.70),
+           dlco_test("2026-03-23T10:09:30+01:00", trials, summ, [1, 2], si=False)])))
+
+# 24. (f) DLCO, DLX2: Hb 118 g/L and COHb 3.6 % (Delacorte-Hale's Hb, pending on
+# 2026-03-17, now measured); low DLCO with emphysema, two repeatable maneuvers.
+common = dict(CH4, vi=2.90, vd_instr=0.150, vd_anat=round(0.0022 * 79, 4), send_vd_anat=False,
+              pb_kpa=101.6, si=True, insp85=2.4, timing=timing(10.2, insp_time=3.0))
+trials, summ = session_maneuvers([
+    dict(time="2026-03-26T10:06:00+01:00", target_va=5.05, target_dlco=13.2),
+    dict(time="2026-03-26T10:11:00+01:00", target_va=5.12, target_dlco=12.7, vi=2.93)], common)
+SESSIONS.append(("2026-03-26-delacorte-dlco-hb-cohb.json", doc(
+    "KVH-DLX2-D0530", "D0530", "2026-03-26T10:00:00+01:00", "delacorte", "DLX2", schema="1.1",
+    environment=env(22.0, 101.6),
+    tests=[vc_test("2026-03-26T10:02:00+01:00", 1.50, 3.04),
+           dlco_test("2026-03-26T10:11:00+01:00", trials, summ, [1, 2],
+                     extra=[q("HB", 118, "g/L", "none"), q("COHB", 3.6, "%", "none")],
+                     comments=["Hb and COHb from a venous sample taken at the session"])])))
+
+# 25. (f) DLCO, DLX2 at the hospital's hill outreach clinic (about 1600 m,
+# PB 84.0 kPa): the altitude adjustment to PIO2 150 mmHg appears.
+common = dict(CH4, vi=5.55, vd_instr=0.150, vd_anat=round(0.0022 * 83, 4), send_vd_anat=False,
+              pb_kpa=84.0, si=True)
+trials, summ = session_maneuvers([
+    dict(time="2026-03-27T11:05:00+01:00", target_va=7.05, target_dlco=36.4, timing=timing(10.1)),
+    dict(time="2026-03-27T11:10:00+01:00", target_va=7.10, target_dlco=35.6, timing=timing(9.9),
+         vi=5.58)], common)
+SESSIONS.append(("2026-03-27-mbeki-dlco-altitude.xml", doc(
+    "KVH-DLX2-D0541", "D0541", "2026-03-27T11:00:00+01:00", "mbeki", "DLX2", schema="1.1",
+    environment=env(19.5, 84.0),
+    tests=[vc_test("2026-03-27T11:02:00+01:00", 4.45, 5.76),
+           dlco_test("2026-03-27T11:10:00+01:00", trials, summ, [1, 2],
+                     comments=["Outreach clinic, Kestrel Vale hill site (about 1600 m)"])])))
+
+
+def spiro_trial(number, time, accepted, fev1, fvc, pef, bev, fet, eotv, fivc, unit="L", cond="BTPS",
+                pef_unit="L/s"):
+    return dict(number=number, time=time, operatorAccepted=accepted, values=[
+        q("FEV1", fev1, unit, cond), q("FVC", fvc, unit, cond), q("PEF", pef, pef_unit, cond),
+        q("BEV", bev, unit, cond), q("FET", fet, "s", "none"), q("EOTV", eotv, unit, cond),
+        q("FIVC", fivc, unit, cond)])
+
+
+# 26. (d) Spirometry, SPX3 at ATPS in mL: three acceptable trials within
+# 0.150 L, grade A for FEV1 and FVC; the reported values are the largest.
+tr = [spiro_trial(1, "2026-03-24T08:41:00+01:00", True, 3250, 4210, 538, 80, 9.8, 15, 4180, "mL", "ATPS", "L/min"),
+      spiro_trial(2, "2026-03-24T08:42:30+01:00", True, 3290, 4240, 552, 95, 10.4, 18, 4230, "mL", "ATPS", "L/min"),
+      spiro_trial(3, "2026-03-24T08:44:00+01:00", True, 3220, 4180, 531, 70, 9.1, 12, 4150, "mL", "ATPS", "L/min")]
+SESSIONS.append(("2026-03-24-brennigan-spirometry-trials.json", doc(
+    "KVH-SPX3-004850", "004850", "2026-03-24T08:38:00+01:00", "brennigan", "SPX3", schema="1.1",
+    environment=env(22.0, 101.2, rh=40),
+    tests=[dict(type="spirometry", time="2026-03-24T08:44:00+01:00", values=[
+        q("FEV1", 3290, "mL", "ATPS", trials=[2]), q("FVC", 4240, "mL", "ATPS", trials=[2]),
+        q("FEV1_FVC", 77.6, "%", "none"), q("PEF", 552, "L/min", "ATPS", trials=[2]),
+        q("FET", 10.4, "s", "none")], trials=tr,
+        comments=["Three acceptable maneuvers"])])))
+
+# 27. (e) Spirometry, BOX2 at BTPS: three acceptable trials that are not
+# repeatable (FEV1 0.18 L apart: grade C; FVC 0.23 L apart: grade D).
+tr = [spiro_trial(1, "2026-03-24T10:12:00+01:00", True, 2.46, 3.04, 6.1, 0.06, 8.6, 0.012, 3.00),
+      spiro_trial(2, "2026-03-24T10:14:00+01:00", True, 2.28, 2.81, 5.6, 0.07, 8.1, 0.015, 2.79),
+      spiro_trial(3, "2026-03-24T10:16:00+01:00", True, 2.20, 2.74, 5.4, 0.05, 7.9, 0.010, 2.70)]
+SESSIONS.append(("2026-03-24-andersby-spirometry-not-repeatable.xml", doc(
+    "KVH-BOX2-3460", "3460", "2026-03-24T10:10:00+01:00", "andersby", "BOX2", schema="1.1",
+    tests=[dict(type="spirometry", time="2026-03-24T10:16:00+01:00", values=[
+        q("FEV1", 2.46, "L", "BTPS", trials=[1]), q("FVC", 3.04, "L", "BTPS", trials=[1]),
+        q("FEV1_FVC", 0.809, "1", "none"), q("PEF", 6.1, "L/s", "BTPS", trials=[1])], trials=tr,
+        comments=["Patient tired after the first maneuver; no further attempts"])])))
+
+# 28. (e) Spirometry, BOX2 at BTPS: trial 2 has a back-extrapolated volume of
+# 0.32 L (limit 5 % of FVC = 0.233 L), so it is neither acceptable nor usable;
+# the device still reported its (inflated) FEV1.
+tr = [spiro_trial(1, "2026-03-25T09:31:00+01:00", True, 3.58, 4.68, 9.2, 0.09, 9.5, 0.014, 4.60),
+      spiro_trial(2, "2026-03-25T09:33:00+01:00", True, 3.79, 4.66, 9.9, 0.32, 9.1, 0.017, 4.62),
+      spiro_trial(3, "2026-03-25T09:35:00+01:00", True, 3.62, 4.72, 9.4, 0.11, 10.2, 0.011, 4.70)]
+SESSIONS.append(("2026-03-25-ainsley-spirometry-bev.json", doc(
+    "KVH-BOX2-3471", "3471", "2026-03-25T09:28:00+01:00", "ainsley", "BOX2", schema="1.1",
+    tests=[dict(type="spirometry", time="2026-03-25T09:35:00+01:00", values=[
+        q("FEV1", 3.79, "L", "BTPS", trials=[2]), q("FVC", 4.72, "L", "BTPS", trials=[3]),
+        q("FEV1_FVC", 0.803, "1", "none"), q("PEF", 9.9, "L/s", "BTPS", trials=[2])], trials=tr)])))
 
 # ---- incomplete or implausible on purpose (schema-valid; core validation refuses them) ----
 

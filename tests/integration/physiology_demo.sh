@@ -226,6 +226,12 @@ grep -q 'OBX|[0-9]*|NM|19913-3^' "$work/out-hl7v2/KVH-DLX2-D0530.hl7" && ok || b
 grep -q 'OBX|[0-9]*|NM|DLCO_COHB^' "$work/out-hl7v2/KVH-DLX2-D0530.hl7" && ok || bad "HL7: no DLCO_COHB OBX"
 grep -q 'OBX|[0-9]*|NM|DLCO_ALT^' "$work/out-hl7v2/KVH-DLX2-D0541.hl7" && ok || bad "HL7: no DLCO_ALT OBX"
 grep -q 'DLCO sent 24.2, recomputed from your maneuver 19.9' "$work/out-hl7v2/KVH-DLX1-88210.hl7" && ok || bad "HL7: mismatch warning not in an NTE"
+# The grades and failed criteria reach the receivers as text (HL7 NTE, FHIR note).
+grep -q 'DLCO session grade A' "$work/out-hl7v2/KVH-DLX2-D0502.hl7" && ok || bad "HL7: no DLCO grade note"
+grep -q 'DLCO maneuver 2: grade D, not acceptable: breath-hold time 7.4 s outside 8-12 s' "$work/out-hl7v2/KVH-DLX2-D0502.hl7" && ok || bad "HL7: no failed breath-hold note"
+grep -q 'spirometry grade FEV1 C, FVC D' "$work/out-hl7v2/KVH-BOX2-3460.hl7" && ok || bad "HL7: no spirometry grade note"
+grep -q 'DLCO session grade A' "$work/out-fhir-json/KVH-DLX2-D0502.json" && ok || bad "FHIR: no DLCO grade note"
+grep -q 'spirometry grade FEV1 C, FVC D' "$work/out-fhir-json/KVH-BOX2-3460.json" && ok || bad "FHIR: no spirometry grade note"
 # FHIR: the adjusted Observation names what it was derived from.
 python3 - "$work/out-fhir-json/KVH-DLX2-D0541.json" << 'EOF' && ok || bad "FHIR: DLCO_ALT Observation without derivedFrom"
 import json, sys

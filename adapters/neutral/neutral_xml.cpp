@@ -14,13 +14,32 @@ namespace {
 using detail::Findings;
 using detail::Path;
 
+// Documents the gateway writes spell every enum exactly as to_string() does;
+// trying that spelling first skips the case-insensitive parse, which lowers
+// each character through the C library and showed in profiles (one condition
+// and often one origin per value). Anything else goes to the model's parse.
+std::optional<GasCondition> parse_condition_exact_first(std::string_view text) {
+    for (GasCondition c : {GasCondition::btps, GasCondition::stpd, GasCondition::atps,
+                           GasCondition::atpd, GasCondition::none})
+        if (text == to_string(c)) return c;
+    return parse_gas_condition(text);
+}
+
+std::optional<Origin> parse_origin_exact_first(std::string_view text) {
+    for (Origin o : {Origin::device, Origin::gateway})
+        if (text == to_string(o)) return o;
+    return parse_origin(text);
+}
+
 constexpr std::string_view kXsiPrefix = "xsi:";
 
 class XmlReader {
 public:
     XmlReader(Findings& findings) : f_(findings) {}
 
-    std::optional<NeutralResult> read(const pugi::xml_document& doc);
+    // Fills `r` in place (a NeutralResult is large; moving it out of an
+    // optional twice showed in profiles); false when it is not a result.
+    bool read(const pugi::xml_document& doc, NeutralResult& r);
 
 private:
     Findings& f_;
@@ -98,6 +117,14 @@ private:
             invalid(n, p, text, expected);
         }
     }
+    // Quantities and tests are large: their vectors are sized once from the
+    // number of child elements of that local name, not regrown while reading.
+    std::size_t count_elements(pugi::xml_node n, std::string_view name) const {
+        std::size_t count = 0;
+        for (pugi::xml_node c = n.first_child(); c; c = c.next_sibling())
+            if (c.type() == pugi::node_element && local(c) == name) ++count;
+        return count;
+    }
     template <class Fn>
     void elements(pugi::xml_node n, Fn&& fn) {
         for (pugi::xml_node c = n.first_child(); c; c = c.next_sibling())
@@ -128,11 +155,11 @@ std::string_view XmlReader::namespace_of(pugi::xml_node n) const {
     return {};
 }
 
-std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
+bool XmlReader::read(const pugi::xml_document& doc, NeutralResult& r) {
     const pugi::xml_node root = doc.document_element();
     if (!root) {
         f_.add("xml.malformed", detail::kRoot, "no root element", 0);
-        return std::nullopt;
+        return false;
     }
     std::string_view name = root.name();
     const auto colon = name.find(':');
@@ -145,11 +172,10 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
                "root element is <" + std::string(name) + "> in namespace '" + std::string(ns) +
                    "'; expected <result> in namespace '" + std::string(kNamespace) + "'",
                at(root), {{"found", std::string(name)}, {"namespace", std::string(ns)}});
-        return std::nullopt;
+        return false;
     }
 
     const pugi::xml_attribute version = root.attribute("schemaVersion");
-    NeutralResult r;
     if (!version) {
         missing(root, detail::kRoot.child("schemaVersion"), "a schemaVersion attribute");
     } else {
@@ -159,7 +185,7 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
                    "schema version '" + std::string(version.value()) +
                        "' is not supported: this reader reads 1.x (1.0 and later minor versions)",
                    at(root), {{"schemaVersion", version.value()}});
-            return std::nullopt;
+            return false;
         }
         if (v->minor > kSchemaMinor) f_.unknown_severity = Severity::warning;
         r.schema_version = version.value();
@@ -167,6 +193,7 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
     read_root_attributes(root, r);
 
     int tests = 0;
+    r.tests.reserve(count_elements(root, "test"));
     elements(root, [&](pugi::xml_node c, std::string_view l) {
         if (l == "deviceSessionNumber") {
             r.device_session_number = c.child_value();
@@ -177,7 +204,7 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
             read_subject(c, r.subject, detail::kRoot.child("subject"));
         } else if (l == "order") {
             const Path p = detail::kRoot.child("order");
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "placer")
                     r.order.placer_number = a.value();
@@ -192,7 +219,7 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
         } else if (l == "device") {
             const Path p = detail::kRoot.child("device");
             Device& d = r.device;
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "id")
                     d.id = a.value();
@@ -214,7 +241,8 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
             elements(c, [&](pugi::xml_node x, std::string_view) { unknown_element(x, p); });
         } else if (l == "environment") {
             const Path p = detail::kRoot.child("environment");
-            for (pugi::xml_attribute a : c.attributes()) unknown_attribute(c, a, p);
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute())
+                unknown_attribute(c, a, p);
             elements(c, [&](pugi::xml_node x, std::string_view xl) {
                 std::optional<Quantity>* slot = xl == "temperature" ? &r.environment.temperature
                                                 : xl == "pressure"  ? &r.environment.pressure
@@ -234,11 +262,11 @@ std::optional<NeutralResult> XmlReader::read(const pugi::xml_document& doc) {
             unknown_element(c, detail::kRoot);
         }
     });
-    return r;
+    return true;
 }
 
 void XmlReader::read_root_attributes(pugi::xml_node n, NeutralResult& r) {
-    for (pugi::xml_attribute a : n.attributes()) {
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute()) {
         std::string_view an = a.name();
         if (an == "schemaVersion") continue;
         if (an == "id") {
@@ -262,14 +290,15 @@ void XmlReader::read_root_attributes(pugi::xml_node n, NeutralResult& r) {
 }
 
 void XmlReader::read_subject(pugi::xml_node n, Subject& s, const Path& p) {
-    for (pugi::xml_attribute a : n.attributes()) unknown_attribute(n, a, p);
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute())
+        unknown_attribute(n, a, p);
     int ids = 0;
     elements(n, [&](pugi::xml_node c, std::string_view l) {
         if (l == "identifier") {
             const Path ip = p.item("identifiers", ids++);
             Identifier& id = s.identifiers.emplace_back();
             bool has_value = false;
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "system")
                     id.system = a.value();
@@ -283,7 +312,7 @@ void XmlReader::read_subject(pugi::xml_node n, Subject& s, const Path& p) {
             if (!has_value) missing(c, ip.child("value"), "a value attribute");
         } else if (l == "name") {
             const Path np = p.child("name");
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "family")
                     s.family_name = a.value();
@@ -327,7 +356,7 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
                                                                : std::string_view(q.kind))
                          : parent->child(field);
     if (q.kind.empty()) missing(n, p.child("kind"), "a kind attribute");
-    for (pugi::xml_attribute a : n.attributes()) {
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute()) {
         std::string_view an = a.name();
         if (an == "kind") {
             continue;
@@ -339,10 +368,11 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
             q.unit = unit_text;
         } else if (an == "condition") {
             condition_text = a.value();
-            enumerated(n, p.child("condition"), condition_text, q.condition, parse_gas_condition,
+            enumerated(n, p.child("condition"), condition_text, q.condition,
+                       parse_condition_exact_first,
                        "a gas condition (BTPS, STPD, ATPS, ATPD, none)");
         } else if (an == "origin") {
-            enumerated(n, p.child("origin"), a.value(), q.origin, parse_origin,
+            enumerated(n, p.child("origin"), a.value(), q.origin, parse_origin_exact_first,
                        "an origin (device, gateway)");
         } else if (an == "absent") {
             q.absent_reason = a.value();
@@ -356,7 +386,7 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
         if (l == "source") {
             has_source = true;
             const Path sp = p.child("source");
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "value")
                     q.source.value_text = a.value();
@@ -375,7 +405,7 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
             const Path dp = p.child("derivation");
             Derivation& d = q.derivation.emplace();
             bool has_factor = false;
-            for (pugi::xml_attribute a : c.attributes()) {
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
                 std::string_view an = a.name();
                 if (an == "factor") {
                     std::optional<double> v;
@@ -403,13 +433,13 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
             int t = 0;
             integer(c, p.child("trials"), num.value(), t);
             q.trials.push_back(t);
-            for (pugi::xml_attribute a : c.attributes())
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute())
                 if (std::strcmp(a.name(), "number") != 0) unknown_attribute(c, a, p);
         } else if (l == "derivedFrom") {
             pugi::xml_attribute kind = c.attribute("kind");
             if (!kind) return missing(c, p.child("derivedFrom"), "a kind attribute");
             q.derived_from.emplace_back(kind.value());
-            for (pugi::xml_attribute a : c.attributes())
+            for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute())
                 if (std::strcmp(a.name(), "kind") != 0) unknown_attribute(c, a, p);
         } else {
             unknown_element(c, p);
@@ -425,14 +455,14 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
 
 void XmlReader::read_reference(pugi::xml_node n, ReferenceValues& r, const Path& p) {
     bool has_set = false;
-    for (pugi::xml_attribute a : n.attributes()) {
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute()) {
         std::string_view an = a.name();
         if (an == "equationSet")
             r.equation_set = a.value(), has_set = true;
         else if (an == "equationVersion")
             r.equation_version = a.value();
         else if (an == "origin")
-            enumerated(n, p.child("origin"), a.value(), r.origin, parse_origin,
+            enumerated(n, p.child("origin"), a.value(), r.origin, parse_origin_exact_first,
                        "an origin (device, gateway)");
         else if (an == "unit")
             r.unit = a.value();
@@ -459,7 +489,7 @@ void XmlReader::read_values(pugi::xml_node c, std::vector<Quantity>& out, const 
 
 void XmlReader::read_test(pugi::xml_node n, Test& t, const Path& p) {
     bool has_type = false;
-    for (pugi::xml_attribute a : n.attributes()) {
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute()) {
         std::string_view an = a.name();
         if (an == "type") {
             has_type = true;
@@ -475,6 +505,8 @@ void XmlReader::read_test(pugi::xml_node n, Test& t, const Path& p) {
     }
     if (!has_type) missing(n, p.child("type"), "a type attribute");
     int trials = 0;
+    t.values.reserve(count_elements(n, "value"));
+    t.trials.reserve(count_elements(n, "trial"));
     elements(n, [&](pugi::xml_node c, std::string_view l) {
         if (l == "value")
             read_values(c, t.values, p);
@@ -489,7 +521,7 @@ void XmlReader::read_test(pugi::xml_node n, Test& t, const Path& p) {
 
 void XmlReader::read_trial(pugi::xml_node n, Trial& t, const Path& p) {
     bool has_number = false;
-    for (pugi::xml_attribute a : n.attributes()) {
+    for (pugi::xml_attribute a = n.first_attribute(); a; a = a.next_attribute()) {
         std::string_view an = a.name();
         if (an == "number") {
             has_number = true;
@@ -511,6 +543,7 @@ void XmlReader::read_trial(pugi::xml_node n, Trial& t, const Path& p) {
         }
     }
     if (!has_number) missing(n, p.child("number"), "a number attribute");
+    t.values.reserve(count_elements(n, "value"));
     elements(n, [&](pugi::xml_node c, std::string_view l) {
         if (l == "value")
             read_values(c, t.values, p);
@@ -526,7 +559,7 @@ void XmlReader::read_findings(pugi::xml_node n, std::vector<Finding>& out, const
         const Path fp = p.item("findings", i++);
         Finding& f = out.emplace_back();
         bool has_rule = false, has_severity = false;
-        for (pugi::xml_attribute a : c.attributes()) {
+        for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute()) {
             std::string_view an = a.name();
             if (an == "rule") {
                 f.rule = a.value(), has_rule = true;
@@ -898,7 +931,7 @@ ReadOutcome read_xml(std::string_view bytes, std::string_view source_name) {
         return outcome;
     }
     XmlReader reader(findings);
-    outcome.result = reader.read(doc);
+    if (!reader.read(doc, outcome.result.emplace())) outcome.result.reset();
     return outcome;
 }
 

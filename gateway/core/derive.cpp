@@ -22,48 +22,50 @@ std::string number(double v) {
     return ec == std::errc() ? std::string(buf, p) : std::string("?");
 }
 
-// One input of a derivation, looked up among a test's reported values.
+// One input of a derivation, looked up among a test's reported values. Why
+// it is not usable is worded only when a finding needs it (problem()): most
+// inputs are looked up for a derivation that is not reported at all.
 struct Input {
     std::string kind;
     std::optional<double> value;  // what the quantity holds, usable or not
     bool usable = false;          // a finite value in the canonical unit and condition
-    std::string problem;          // why it is not usable; empty when usable
+    const Quantity* quantity = nullptr;
+    const QuantityKind* row = nullptr;  // looked up once the quantity holds a value
 
     bool present() const { return value.has_value(); }
+
+    // Why it is not usable; empty when usable.
+    std::string problem() const {
+        const Quantity* q = quantity;
+        if (!q) return kind + " is not in the test";
+        if (q->absent_reason) return kind + " is absent (" + *q->absent_reason + ")";
+        if (!q->value) return kind + " has no value";
+        const QuantityKind* k = row;
+        if (!k) return kind + " is not in the quantity table";
+        if (q->unit != k->canonical_unit)
+            return kind + " is in '" + q->unit + "', not the canonical '" + k->canonical_unit +
+                   "' (not normalized)";
+        if (k->canonical_condition != GasCondition::none && q->condition != k->canonical_condition)
+            return kind + " is at '" + std::string(to_string(q->condition)) + "', not " +
+                   std::string(to_string(k->canonical_condition)) + " (not normalized)";
+        if (!std::isfinite(*q->value)) return kind + " is not a finite number";
+        return {};
+    }
 };
 
 Input find_input(const Test& test, std::string_view kind) {
     Input in;
     in.kind = std::string(kind);
     const Quantity* q = test.find(kind);
-    if (!q) {
-        in.problem = in.kind + " is not in the test";
-        return in;
-    }
-    if (q->absent_reason) {
-        in.problem = in.kind + " is absent (" + *q->absent_reason + ")";
-        return in;
-    }
-    if (!q->value) {
-        in.problem = in.kind + " has no value";
-        return in;
-    }
+    in.quantity = q;
+    if (!q || q->absent_reason || !q->value) return in;
     in.value = q->value;
     const QuantityKind* k = quantity_table().find(kind);
-    if (!k) {
-        in.problem = in.kind + " is not in the quantity table";
-    } else if (q->unit != k->canonical_unit) {
-        in.problem = in.kind + " is in '" + q->unit + "', not the canonical '" + k->canonical_unit +
-                     "' (not normalized)";
-    } else if (k->canonical_condition != GasCondition::none &&
-               q->condition != k->canonical_condition) {
-        in.problem = in.kind + " is at '" + std::string(to_string(q->condition)) + "', not " +
-                     std::string(to_string(k->canonical_condition)) + " (not normalized)";
-    } else if (!std::isfinite(*q->value)) {
-        in.problem = in.kind + " is not a finite number";
-    } else {
-        in.usable = true;
-    }
+    in.row = k;
+    in.usable =
+        k && q->unit == k->canonical_unit &&
+        (k->canonical_condition == GasCondition::none || q->condition == k->canonical_condition) &&
+        std::isfinite(*q->value);
     return in;
 }
 
@@ -100,7 +102,7 @@ Finding not_derived(std::size_t test_index, std::string_view kind, const std::st
 // The first problem among the inputs, or empty when all are usable.
 std::string first_problem(const std::vector<const Input*>& inputs) {
     for (const Input* in : inputs)
-        if (!in->usable) return in->problem;
+        if (!in->usable) return in->problem();
     return {};
 }
 
@@ -149,7 +151,7 @@ void derive_vi_vc(NeutralResult& r, std::size_t index, std::vector<Finding>& fin
     const std::vector<const Input*> inputs{&vi, &vc_input};
     std::string why;
     if (!vi.usable)
-        why = vi.problem;
+        why = vi.problem();
     else if (!vc)
         why = "no usable VC or FVC in the result";
     else if (!(vc->second > 0))

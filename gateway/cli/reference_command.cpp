@@ -16,6 +16,7 @@
 #include <vector>
 
 #include "gateway/cli/commands.hpp"
+#include "gateway/core/csv_line.hpp"
 #include "gateway/core/quantity_table.hpp"
 #include "gateway/core/reference/reference_values.hpp"
 
@@ -69,35 +70,6 @@ std::optional<double> parse_number(std::string_view s) {
 
 std::string fixed(double v, int decimals) {
     return fmt::format("{:.{}f}", v, decimals);
-}
-
-// RFC 4180 fields of one line (quotes may hold commas and doubled quotes).
-std::vector<std::string> split_csv(std::string_view line) {
-    std::vector<std::string> out;
-    std::string cur;
-    bool quoted = false;
-    for (std::size_t i = 0; i < line.size(); ++i) {
-        const char c = line[i];
-        if (quoted) {
-            if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
-                cur += '"';
-                ++i;
-            } else if (c == '"') {
-                quoted = false;
-            } else {
-                cur += c;
-            }
-        } else if (c == '"') {
-            quoted = true;
-        } else if (c == ',') {
-            out.push_back(std::move(cur));
-            cur.clear();
-        } else {
-            cur += c;
-        }
-    }
-    out.push_back(std::move(cur));
-    return out;
 }
 
 std::string csv_field(const std::string& s) {
@@ -279,7 +251,7 @@ int run_csv(const Options& o) {
         return kExitUnreadable;
     }
     if (!header_line.empty() && header_line.back() == '\r') header_line.pop_back();
-    const auto header = split_csv(header_line);
+    const auto header = split_csv_line(header_line);
     Columns c;
     c.sex = column(header, "sex");
     c.age = column(header, "age");
@@ -302,7 +274,7 @@ int run_csv(const Options& o) {
         if (!line.empty() && line.back() == '\r') line.pop_back();
         if (line.empty()) continue;
         bool failed = false;
-        out += line + row_output(*plan, c, split_csv(line), header.size(), failed) + "\n";
+        out += line + row_output(*plan, c, split_csv_line(line), header.size(), failed) + "\n";
         any_failed = any_failed || failed;
     }
     if (in.bad()) {

@@ -6,39 +6,11 @@
 #include <cstdlib>
 #include <stdexcept>
 
+#include "gateway/core/csv_line.hpp"
 #include "gateway/core/quantities_csv.hpp"  // generated: kQuantitiesCsv
 
 namespace pftgw {
 namespace {
-
-// RFC 4180 fields of one line; quotes may hold commas and doubled quotes.
-std::vector<std::string> split_csv_line(std::string_view line) {
-    std::vector<std::string> out;
-    std::string cur;
-    bool quoted = false;
-    for (std::size_t i = 0; i < line.size(); ++i) {
-        const char c = line[i];
-        if (quoted) {
-            if (c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
-                cur += '"';
-                ++i;
-            } else if (c == '"') {
-                quoted = false;
-            } else {
-                cur += c;
-            }
-        } else if (c == '"') {
-            quoted = true;
-        } else if (c == ',') {
-            out.push_back(std::move(cur));
-            cur.clear();
-        } else {
-            cur += c;
-        }
-    }
-    out.push_back(std::move(cur));
-    return out;
-}
 
 std::vector<std::string> split_spaces(std::string_view s) {
     std::vector<std::string> out;

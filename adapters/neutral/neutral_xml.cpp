@@ -117,12 +117,13 @@ private:
             invalid(n, p, text, expected);
         }
     }
-    // Quantities and tests are large: their vectors are sized once from the
-    // number of child elements of that local name, not regrown while reading.
-    std::size_t count_elements(pugi::xml_node n, std::string_view name) const {
+    // A Quantity is large and moving it is not cheap: a test's or trial's
+    // values are reserved once for its number of child elements (an upper
+    // bound: trials and comments count too), not regrown while reading.
+    static std::size_t count_elements(pugi::xml_node n) {
         std::size_t count = 0;
         for (pugi::xml_node c = n.first_child(); c; c = c.next_sibling())
-            if (c.type() == pugi::node_element && local(c) == name) ++count;
+            if (c.type() == pugi::node_element) ++count;
         return count;
     }
     template <class Fn>
@@ -193,7 +194,6 @@ bool XmlReader::read(const pugi::xml_document& doc, NeutralResult& r) {
     read_root_attributes(root, r);
 
     int tests = 0;
-    r.tests.reserve(count_elements(root, "test"));
     elements(root, [&](pugi::xml_node c, std::string_view l) {
         if (l == "deviceSessionNumber") {
             r.device_session_number = c.child_value();
@@ -505,8 +505,7 @@ void XmlReader::read_test(pugi::xml_node n, Test& t, const Path& p) {
     }
     if (!has_type) missing(n, p.child("type"), "a type attribute");
     int trials = 0;
-    t.values.reserve(count_elements(n, "value"));
-    t.trials.reserve(count_elements(n, "trial"));
+    t.values.reserve(count_elements(n));
     elements(n, [&](pugi::xml_node c, std::string_view l) {
         if (l == "value")
             read_values(c, t.values, p);
@@ -543,7 +542,7 @@ void XmlReader::read_trial(pugi::xml_node n, Trial& t, const Path& p) {
         }
     }
     if (!has_number) missing(n, p.child("number"), "a number attribute");
-    t.values.reserve(count_elements(n, "value"));
+    t.values.reserve(count_elements(n));
     elements(n, [&](pugi::xml_node c, std::string_view l) {
         if (l == "value")
             read_values(c, t.values, p);

@@ -129,25 +129,26 @@ Result<QuantityTable> QuantityTable::parse_csv(std::string_view csv) {
             if (r.key == k.key) return fail("duplicate key '" + k.key + "'");
         table.rows_.push_back(std::move(k));
     }
-    for (std::size_t i = 0; i < table.rows_.size(); ++i) table.by_key_.push_back(i);
-    std::sort(table.by_key_.begin(), table.by_key_.end(), [&](std::size_t a, std::size_t b) {
-        return table.rows_[a].key < table.rows_[b].key;
-    });
+    for (std::size_t i = 0; i < table.rows_.size(); ++i) {
+        const QuantityKind& k = table.rows_[i];
+        table.by_key_.emplace(k.key, i);
+        table.by_variant_.emplace(k.base + "|" + k.variant, i);
+    }
     return table;
 }
 
 const QuantityKind* QuantityTable::find(std::string_view key) const {
-    auto it = std::lower_bound(by_key_.begin(), by_key_.end(), key,
-                               [&](std::size_t i, std::string_view k) { return rows_[i].key < k; });
-    if (it != by_key_.end() && rows_[*it].key == key) return &rows_[*it];
-    return nullptr;
+    const auto it = by_key_.find(std::string(key));  // keys are short: no allocation (SSO)
+    return it == by_key_.end() ? nullptr : &rows_[it->second];
 }
 
 const QuantityKind* QuantityTable::variant_of(std::string_view base,
                                               std::string_view variant) const {
-    for (const auto& r : rows_)
-        if (r.base == base && r.variant == variant) return &r;
-    return nullptr;
+    std::string k;
+    k.reserve(base.size() + 1 + variant.size());
+    k.append(base).append(1, '|').append(variant);
+    const auto it = by_variant_.find(k);
+    return it == by_variant_.end() ? nullptr : &rows_[it->second];
 }
 
 const QuantityTable& quantity_table() {

@@ -5,6 +5,7 @@
 #include <optional>
 #include <string>
 #include <string_view>
+#include <unordered_map>
 #include <vector>
 
 #include "gateway/core/model.hpp"
@@ -60,7 +61,10 @@ public:
 
 private:
     std::vector<QuantityKind> rows_;
-    std::vector<std::size_t> by_key_;  // row indices sorted by key, for find()
+    // Row indices by key and by "base|variant": find() and variant_of() run for
+    // every value of every result, so they are hashed, not searched.
+    std::unordered_map<std::string, std::size_t> by_key_;
+    std::unordered_map<std::string, std::size_t> by_variant_;
 };
 
 // The table compiled from schemas/quantities.csv; parsed once, then constant.

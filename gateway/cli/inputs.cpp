@@ -189,32 +189,34 @@ bool is_input_file(const fs::path& p, InputFormat from) {
 bool for_each_item(const fs::path& file, const InputContext& c,
                    const std::function<void(ReadItem&&)>& fn, std::string& error) {
     if (c.from == InputFormat::csv) return read_csv_file(file, c, fn, error);
+    const std::string source = file.string();
+    if (c.from == InputFormat::neutral && file.extension() == ".jsonl") {
+        // Line by line: a JSON Lines archive is never held in memory whole.
+        std::ifstream in(file, std::ios::binary);
+        if (!in) {
+            error = "cannot open " + source;
+            return false;
+        }
+        std::string line;
+        int line_no = 0;
+        while (std::getline(in, line)) {
+            ++line_no;
+            if (line.find_first_not_of(" \t\r") == std::string::npos) continue;
+            ReadItem item;
+            item.source = source + ":" + std::to_string(line_no);
+            item.bytes = std::move(line);
+            fn(std::move(item));
+        }
+        return true;
+    }
     std::string bytes;
     if (!read_whole(file, bytes, error)) return false;
-    const std::string source = file.string();
     switch (c.from) {
         case InputFormat::neutral: {
-            if (file.extension() != ".jsonl") {
-                ReadItem item;
-                item.source = source;
-                item.bytes = std::move(bytes);
-                fn(std::move(item));
-                return true;
-            }
-            std::size_t pos = 0;
-            int line_no = 0;
-            while (pos < bytes.size()) {
-                auto end = bytes.find('\n', pos);
-                if (end == std::string::npos) end = bytes.size();
-                ++line_no;
-                std::string line = bytes.substr(pos, end - pos);
-                pos = end + 1;
-                if (line.find_first_not_of(" \t\r") == std::string::npos) continue;
-                ReadItem item;
-                item.source = source + ":" + std::to_string(line_no);
-                item.bytes = std::move(line);
-                fn(std::move(item));
-            }
+            ReadItem item;
+            item.source = source;
+            item.bytes = std::move(bytes);
+            fn(std::move(item));
             return true;
         }
         case InputFormat::hl7v2:

@@ -59,27 +59,30 @@ std::vector<fs::path> find_inputs(const std::vector<std::string>& args, InputFor
 
 std::size_t count_documents(const fs::path& file, InputFormat from) {
     if (from == InputFormat::neutral && file.extension() != ".jsonl") return 1;
+    // Streamed in chunks: counting must not hold a large archive in memory.
+    const std::string_view marker = from == InputFormat::hl7v2  ? std::string_view("MSH")
+                                    : from == InputFormat::astm ? std::string_view("\rO|")
+                                                                : std::string_view("\n");
     std::ifstream in(file, std::ios::binary);
-    std::ostringstream ss;
-    ss << in.rdbuf();
-    const std::string bytes = std::move(ss).str();
+    std::string buffer;
+    std::size_t n = 0;
+    std::string chunk(64 * 1024, '\0');
+    while (in) {
+        in.read(chunk.data(), static_cast<std::streamsize>(chunk.size()));
+        // Keep the marker's length minus one from the previous chunk, so a marker
+        // split over two chunks is counted once.
+        const std::size_t keep = std::min(buffer.size(), marker.size() - 1);
+        buffer.erase(0, buffer.size() - keep);
+        buffer.append(chunk.data(), static_cast<std::size_t>(in.gcount()));
+        n += count_of(buffer, marker);
+    }
     switch (from) {
-        case InputFormat::neutral: {
-            std::size_t n = 0;
-            std::istringstream lines(bytes);
-            std::string line;
-            while (std::getline(lines, line))
-                if (line.find_first_not_of(" \t\r") != std::string::npos) ++n;
-            return n;
-        }
-        case InputFormat::csv: {
-            const std::size_t lines = count_of(bytes, "\n");
-            return lines > 0 ? lines - 1 : 0;  // less the header
-        }
+        case InputFormat::neutral:
+        case InputFormat::csv:
+            return n > 0 ? n - (from == InputFormat::csv ? 1 : 0) : 0;  // CSV: less the header
         case InputFormat::hl7v2:
-            return std::max<std::size_t>(1, count_of(bytes, "MSH"));
         case InputFormat::astm:
-            return std::max<std::size_t>(1, count_of(bytes, "\rO|"));
+            return std::max<std::size_t>(1, n);
     }
     return 1;
 }

@@ -55,16 +55,15 @@ def csv_rows(path, n):
 
 
 def run(cmd):
-    """Runs one command; returns (seconds, peak RSS of that child in MiB)."""
-    before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    """Runs one command; returns (seconds, peak RSS of that very process in MiB)."""
     t0 = time.monotonic()
-    p = subprocess.run(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    p = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    _, status, usage = os.wait4(p.pid, 0)  # this child's own rusage, not the largest so far
     secs = time.monotonic() - t0
-    if p.returncode not in (0, 1):  # 1: some results blocked by their findings (still converted work)
-        sys.exit(f"{' '.join(cmd)} exited {p.returncode}:\n{p.stderr[-2000:]}")
-    peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    # ru_maxrss of children is the largest child so far: run the small sizes first.
-    return secs, max(peak, before) / 1024.0
+    rc = os.waitstatus_to_exitcode(status)
+    if rc not in (0, 1):  # 1: some results blocked by their findings (still converted work)
+        sys.exit(f"{' '.join(cmd)} exited {rc}:\n{p.stderr.read()[-2000:]}")
+    return secs, usage.ru_maxrss / 1024.0
 
 
 def main():

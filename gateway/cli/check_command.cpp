@@ -170,7 +170,7 @@ int run_check(const CheckOptions& o) {
                 all.push_back(std::move(p));
             },
             error);
-        if (!ok) unreadable(file.string(), error);
+        if (!ok) unreadable(file, error);
     }
     if (o.format == "json")
         print_json(all, counts);

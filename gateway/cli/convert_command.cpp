@@ -174,21 +174,46 @@ public:
     }
 
     // Processes the batch on `jobs_` threads, then records it in input order.
+    // --jobs N is the number of threads at work, the reading one included.
+    // With N > 1 the batch goes to N - 1 worker threads and the main thread
+    // reads the next batch meanwhile (device readers parse there); results are
+    // recorded, in input order, when the next batch is handed over. With N = 1
+    // the main thread converts the batch itself.
     void flush() {
+        wait_inflight();
         if (batch_.empty()) return;
-        std::atomic<std::size_t> next{0};
-        auto worker = [&] {
-            for (std::size_t i = next++; i < batch_.size(); i = next++) convert_one(batch_[i]);
-        };
-        std::vector<std::thread> threads;
-        for (unsigned t = 1; t < jobs_ && t < batch_.size(); ++t) threads.emplace_back(worker);
-        worker();
-        for (auto& t : threads) t.join();
-        for (Work& w : batch_) record(w);
+        inflight_ = std::move(batch_);
         batch_.clear();
+        next_ = 0;
+        auto work = [this] {
+            for (std::size_t i = next_++; i < inflight_.size(); i = next_++)
+                convert_one(inflight_[i]);
+        };
+        if (jobs_ <= 1) {
+            work();
+            return;
+        }
+        const unsigned threads =
+            std::min<unsigned>(jobs_ - 1, static_cast<unsigned>(inflight_.size()));
+        for (unsigned t = 0; t < std::max(1u, threads); ++t) workers_.emplace_back(work);
+    }
+
+    // Waits for the batch in flight and records it.
+    void wait_inflight() {
+        for (auto& t : workers_) t.join();
+        workers_.clear();
+        for (Work& w : inflight_) record(w);
+        inflight_.clear();
+    }
+
+    // Everything read so far is converted and recorded.
+    void drain() {
+        flush();
+        wait_inflight();
     }
 
     void note_unreadable_file(const std::string& source, const std::string& error) {
+        drain();  // keep the input order in rejects.jsonl
         Work w;
         w.item.source = source;
         w.outcome = Outcome::unreadable;
@@ -338,6 +363,9 @@ private:
     std::ofstream rejects_;
     unsigned jobs_ = 1;
     std::vector<Work> batch_;
+    std::vector<Work> inflight_;
+    std::vector<std::thread> workers_;
+    std::atomic<std::size_t> next_{0};
     bool progress_shown_ = false;
     std::chrono::steady_clock::time_point start_ = std::chrono::steady_clock::now();
     std::chrono::steady_clock::time_point last_progress_{};
@@ -384,11 +412,10 @@ int run_convert(const ConvertOptions& o) {
         std::string error;
         if (!for_each_item(
                 file, input, [&](ReadItem&& item) { c.add(std::move(item)); }, error)) {
-            c.flush();  // keep the input order in rejects.jsonl
-            c.note_unreadable_file(file.string(), error);
+            c.note_unreadable_file(file, error);
         }
     }
-    c.flush();
+    c.drain();
     c.finish(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
     if (c.write_failed) return kExitUnreadable;
     return exit_code_for(c.counts);
@@ -412,7 +439,8 @@ void add_convert_command(CLI::App& app, CommandContext& ctx) {
     sub->add_option("--receiving-application", opts->writer.receiving_application, "HL7 MSH-5");
     sub->add_option("--receiving-facility", opts->writer.receiving_facility, "HL7 MSH-6");
     sub->add_option("--jobs", opts->jobs,
-                    "Worker threads (default: every core); outputs do not depend on it");
+                    "Threads at work, the one reading included (default: every core); outputs do "
+                    "not depend on it");
     sub->add_flag("--quiet", opts->quiet,
                   "Print no progress, rejects or summary (summary.json is still written)");
     add_input_options(*sub, opts->input);

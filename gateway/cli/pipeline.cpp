@@ -33,14 +33,14 @@ std::size_t count_of(const std::string& bytes, std::string_view what) {
 
 }  // namespace
 
-std::vector<fs::path> find_inputs(const std::vector<std::string>& args, InputFormat from,
-                                  std::vector<std::string>& missing) {
-    std::vector<fs::path> out;
+std::vector<std::string> find_inputs(const std::vector<std::string>& args, InputFormat from,
+                                     std::vector<std::string>& missing) {
+    std::vector<std::string> out;
     for (const auto& arg : args) {
         std::error_code ec;
         const fs::path p(arg);
         if (fs::is_directory(p, ec)) {
-            std::vector<fs::path> found;
+            std::vector<std::string> found;
             for (auto it = fs::recursive_directory_iterator(p, ec);
                  !ec && it != fs::recursive_directory_iterator(); it.increment(ec)) {
                 if (it->is_regular_file(ec) && is_input_file(it->path(), from))
@@ -49,7 +49,7 @@ std::vector<fs::path> find_inputs(const std::vector<std::string>& args, InputFor
             std::sort(found.begin(), found.end());
             out.insert(out.end(), found.begin(), found.end());
         } else if (fs::exists(p, ec)) {
-            out.push_back(p);
+            out.push_back(arg);
         } else {
             missing.push_back(arg);
         }

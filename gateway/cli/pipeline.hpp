@@ -25,8 +25,10 @@ struct Processed {
 
 // Expands files and folders (recursively, the files of `from`, sorted) into
 // a list of files. Missing paths are reported in `missing`.
-std::vector<std::filesystem::path> find_inputs(const std::vector<std::string>& args,
-                                               InputFormat from, std::vector<std::string>& missing);
+// Plain strings, not paths: a path keeps its parsed components, which adds up
+// over a folder of a million exports.
+std::vector<std::string> find_inputs(const std::vector<std::string>& args, InputFormat from,
+                                     std::vector<std::string>& missing);
 
 // Counts results without parsing them (an estimate for device dialects: for
 // the progress bar and the subfolder rule).

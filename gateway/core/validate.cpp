@@ -410,6 +410,10 @@ private:
             const Quantity& q = t.values[v];
             const QuantityKind* kind = kinds_[i][v];
             if (kind == nullptr || kind->test == type) continue;
+            // A slow VC measured on a spirometer is common practice, and DLCO
+            // systems measure it before the maneuver (VI/VC needs it).
+            if (kind->base == "VC" && (type == "spirometry" || type == "diffusing-capacity"))
+                continue;
             add("consistency.test-type", Severity::warning, value_path(i, q.kind),
                 kind->trade_name + " belongs to " + kind->test + " but sits in a " +
                     std::string(type) + " test",

@@ -353,5 +353,16 @@ TEST(ValidateConsistency, TestType) {
     expect_none(check(ok), "consistency.test-type");
 }
 
+TEST(ValidateConsistency, SlowVcOnASpirometerIsNotMisplaced) {
+    // Common practice: a spirometer measures a slow VC beside the FVC, and
+    // VI/VC needs a VC in the diffusing-capacity test. A TLC there still is misplaced.
+    auto r = example_normalized_result();
+    r.tests[kSpiro].values.push_back(testing::q("VC", 3.5, "L", GasCondition::btps));
+    r.tests[kDiffusion].values.push_back(testing::q("VC", 3.5, "L", GasCondition::btps));
+    expect_none(check(r), "consistency.test-type");
+    r.tests[kSpiro].values.push_back(testing::q("TLC", 5.1, "L", GasCondition::btps));
+    expect_one(check(r), "consistency.test-type", "tests[0].values[TLC]", Severity::warning);
+}
+
 }  // namespace
 }  // namespace pftgw

@@ -293,8 +293,7 @@ std::string status_code(const NeutralResult& result) {
 bool rendered_finding(const Finding& f) {
     if (f.severity == Severity::warning) return true;
     if (f.severity != Severity::info) return false;
-    const std::string_view rule = f.rule;
-    return rule.starts_with("quality.") || rule.starts_with("adjust.");
+    return info_travels_to_record(f);  // the core decides, as for HL7
 }
 
 // Findings about a test as a whole that also belong on one value's

@@ -72,15 +72,10 @@ constexpr std::array<GradeCode, 3> kGradeCodes{{
     {"DLCO", "DLCO.grade^DLCO quality grade (ERS/ATS 2017)^99PFTGW"},
 }};
 
-// Info findings that travel in the message: the physiology grades,
-// acceptability and repeatability (quality.*) and adjustments not made
-// (adjust.*). Other info findings are for `pftgw check` only.
-constexpr std::array<std::string_view, 2> kTravellingInfoPrefixes{"quality.", "adjust."};
-
+// Info findings that travel in the message: the core decides
+// (info_travels_to_record: quality.* and adjust.*, not "not assessed" notes).
 bool info_travels(const Finding& f) {
-    for (std::string_view prefix : kTravellingInfoPrefixes)
-        if (std::string_view(f.rule).substr(0, prefix.size()) == prefix) return true;
-    return false;
+    return info_travels_to_record(f);
 }
 
 // z-score band edges (Stanojevic 2022, lung-function-facts.md, V); the band

@@ -130,4 +130,10 @@ bool has_errors(const std::vector<Finding>& findings) {
                        [](const Finding& f) { return f.severity == Severity::error; });
 }
 
+bool info_travels_to_record(const Finding& f) {
+    const std::string_view rule = f.rule;
+    if (!rule.starts_with("quality.") && !rule.starts_with("adjust.")) return false;
+    return !rule.ends_with(".not-assessed") && !rule.ends_with(".not-graded");
+}
+
 }  // namespace pftgw

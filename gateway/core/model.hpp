@@ -204,4 +204,10 @@ struct NeutralResult {
 
 bool has_errors(const std::vector<Finding>& findings);
 
+// Whether an info finding goes out with the result to the record: the
+// physiology grades, acceptability, repeatability (quality.*) and adjustments
+// (adjust.*); not the notes that something could not be assessed, which are
+// for `pftgw check` only. Warnings always travel; errors block delivery.
+bool info_travels_to_record(const Finding& f);
+
 }  // namespace pftgw

@@ -20,7 +20,8 @@ absent, unit), tests[].comments[] and findings[]. Checks per message:
     value has an empty OBX-5 and OBX-11 X;
   - every test comment decodes (hl7's unescape) to an NTE of its OBR group,
     exactly; every warning or error finding's message is inside a decoded NTE,
-    and so is every quality.* finding (grades, acceptability, repeatability);
+    and so is every quality.* / adjust.* finding (grades, acceptability,
+    repeatability) but the "not assessed" / "not graded" notes, which stay in `check`;
   - each quality.grade finding at tests[i] with values ("FEV1", "A") ... has
     in OBR group i an ST OBX coded FEV1.grade^...^99PFTGW whose OBX-5 is the
     grade, and no group has a grade OBX without such a finding (project codes,
@@ -168,8 +169,11 @@ def check_message(name, text, neutral, codes, seen_ids):
 
     all_notes = [n for g in groups for n in g["notes"]]
     for finding in neutral.get("findings", []):
-        travels = finding.get("severity") in ("warning", "error") or \
-            finding.get("rule", "").startswith("quality.")
+        rule = finding.get("rule", "")
+        # The project's rule (core info_travels_to_record): quality.* and adjust.*
+        # info travels, except notes that something could not be assessed.
+        travels = finding.get("severity") in ("warning", "error") or (
+            rule.startswith(("quality.", "adjust.")) and not rule.endswith((".not-assessed", ".not-graded")))
         if not travels:
             continue
         if not any(finding["message"] in n for n in all_notes):

@@ -1,6 +1,7 @@
 // HL7 v2 parsing: delimiters from MSH-1/MSH-2, field spans, escapes, character sets.
 #include "adapters/hl7v2/hl7_parser.hpp"
 
+#include <algorithm>
 #include <cctype>
 
 namespace pftgw::hl7v2 {
@@ -131,9 +132,20 @@ bool valid_delimiter(char c) {
 
 std::vector<Line> split_lines(std::string_view text) {
     std::vector<Line> lines;
-    std::size_t start = 0;
-    for (std::size_t i = 0; i <= text.size(); ++i) {
-        if (i < text.size() && text[i] != '\r' && text[i] != '\n') continue;
+    lines.reserve(text.size() / 64 + 1);  // segments are rarely shorter
+    const std::size_t n = text.size();
+    const auto next = [&](char c, std::size_t from) {
+        const auto at = text.find(c, from);  // memchr: whole segments at a time
+        return at == std::string_view::npos ? n : at;
+    };
+    // The next CR and the next LF ahead, each searched again only once passed:
+    // one pass over the text whichever of the two ends its segments.
+    std::size_t cr = next('\r', 0);
+    std::size_t lf = next('\n', 0);
+    for (std::size_t start = 0; start <= n;) {
+        if (cr < start) cr = next('\r', start);
+        if (lf < start) lf = next('\n', start);
+        const std::size_t i = std::min(cr, lf);
         std::size_t b = start;
         while (b < i && (text[b] == kMllpStart || text[b] == kMllpEnd)) ++b;
         if (b < i) lines.push_back({b, text.substr(b, i - b)});
@@ -265,8 +277,17 @@ std::string ParsedMessage::text_of(const Segment& s, std::size_t n, std::size_t 
     return decode(raw(s, n, rep, comp, sub));
 }
 
+bool is_plain_text(std::string_view raw_text, char escape) {
+    for (const char c : raw_text)
+        if (c == escape || static_cast<unsigned char>(c) >= 0x80) return false;
+    return true;
+}
+
 std::string ParsedMessage::decode(std::string_view in, bool* lossy) const {
     const Delimiters& d = delimiters;
+    // Most fields hold neither escapes nor bytes above ASCII: their text is
+    // their bytes in every character set this reader knows.
+    if (is_plain_text(in, d.escape)) return std::string(in);
     std::string bytes;
     bytes.reserve(in.size());
     for (std::size_t i = 0; i < in.size(); ++i) {

@@ -91,6 +91,10 @@ struct Line {
 };
 std::vector<Line> split_lines(std::string_view text);
 
+// True when raw field text holds no escape character and no byte above
+// ASCII: decoding it gives the same bytes whatever the character set.
+bool is_plain_text(std::string_view raw_text, char escape);
+
 // Reads MSH-1 and MSH-2 of a line starting "MSH" (or "BHS"/"FHS").
 std::optional<Delimiters> read_delimiters(std::string_view header_line, std::string* why = nullptr);
 

@@ -734,9 +734,11 @@ ReadMessage read_one(std::string_view bytes, std::size_t begin, std::size_t end,
     // Text that does not fit the declared character set (a Latin-1 byte in a
     // message that says ASCII or UTF-8): read with U+FFFD, and said so.
     bool lossy = false;
-    for (const auto& s : m.segments)
-        if (!s.header)
-            (void)m.decode(std::string_view(m.text).substr(s.whole.begin, s.whole.size()), &lossy);
+    for (const auto& s : m.segments) {
+        const std::string_view whole =
+            std::string_view(m.text).substr(s.whole.begin, s.whole.size());
+        if (!s.header && !is_plain_text(whole, m.delimiters.escape)) (void)m.decode(whole, &lossy);
+    }
     if (lossy)
         rm.findings.push_back(MessageMapper::add_finding(
             kRuleCharsetMismatch, Severity::warning, "",
@@ -793,10 +795,11 @@ std::optional<Hl7Location> ReadMessage::locate(const Finding& f) const {
     return l;
 }
 
-Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options) {
-    Hl7ReadOutcome out;
+Hl7Split split_hl7(std::string_view bytes) {
+    Hl7Split out;
     const std::vector<Line> lines = split_lines(bytes);
-    std::vector<Line> group;
+    std::size_t group_begin = 0;
+    const Line* group_last = nullptr;
     int batch_messages = 0;
     bool in_batch = false;
     const auto end_of = [&](const Line& l) {
@@ -807,17 +810,17 @@ Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options) {
         return e;
     };
     const auto flush = [&]() {
-        if (group.empty()) return;
-        out.messages.push_back(
-            read_one(bytes, group.front().offset, end_of(group.back()), group, options));
+        if (!group_last) return;
+        out.messages.push_back({group_begin, end_of(*group_last)});
         ++batch_messages;
-        group.clear();
+        group_last = nullptr;
     };
     for (const auto& line : lines) {
         const std::string_view id = segment_id(line.text);
         if (id == "MSH") {
             flush();
-            group.push_back(line);
+            group_begin = line.offset;
+            group_last = &line;
         } else if (is_batch_segment(id)) {
             flush();
             if (id == "BHS") {
@@ -841,8 +844,8 @@ Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options) {
                 }
                 in_batch = false;
             }
-        } else if (!group.empty()) {
-            group.push_back(line);
+        } else if (group_last) {
+            group_last = &line;
         } else {
             Finding f;
             f.rule = std::string(kRuleStraySegment);
@@ -854,6 +857,23 @@ Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options) {
         }
     }
     flush();
+    return out;
+}
+
+ReadMessage read_hl7_message(std::string_view bytes, std::size_t begin, std::size_t end,
+                             const Hl7ReadOptions& options) {
+    std::vector<Line> lines = split_lines(bytes.substr(begin, end - begin));
+    for (auto& l : lines) l.offset += begin;
+    return read_one(bytes, begin, end, lines, options);
+}
+
+Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options) {
+    Hl7Split split = split_hl7(bytes);
+    Hl7ReadOutcome out;
+    out.findings = std::move(split.findings);
+    out.messages.reserve(split.messages.size());
+    for (const auto& m : split.messages)
+        out.messages.push_back(read_hl7_message(bytes, m.begin, m.end, options));
     return out;
 }
 

@@ -94,7 +94,25 @@ struct Hl7ReadOptions {
     const QuantityTable* table = nullptr;  // nullptr: quantity_table()
 };
 
+// All the messages of `bytes`, in order: split_hl7() then read_hl7_message() on each.
 Hl7ReadOutcome read_hl7(std::string_view bytes, const Hl7ReadOptions& options);
+
+// The two halves of read_hl7(), for a caller that splits on one thread and
+// reads the messages on others. split_hl7() only finds where each message
+// starts and ends (MSH to the next MSH, batch segment or the end) and what is
+// wrong with the file itself (stray segments, batch counts); it parses nothing.
+struct MessageRange {
+    std::size_t begin = 0;  // [begin, end) in the input, segment end included
+    std::size_t end = 0;
+};
+struct Hl7Split {
+    std::vector<MessageRange> messages;
+    std::vector<Finding> findings;  // about the file, as Hl7ReadOutcome::findings
+};
+Hl7Split split_hl7(std::string_view bytes);
+// Reads the one message at bytes[begin, end) (a range split_hl7 gave).
+ReadMessage read_hl7_message(std::string_view bytes, std::size_t begin, std::size_t end,
+                             const Hl7ReadOptions& options);
 
 // Rule ids of this reader (DEVELOPERS.md lists the core's).
 inline constexpr std::string_view kRuleMshUnreadable = "hl7.msh-unreadable";      // AR

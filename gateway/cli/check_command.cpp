@@ -161,7 +161,7 @@ int run_check(const CheckOptions& o) {
         const bool ok = for_each_item(
             file, input,
             [&](ReadItem&& item) {
-                Processed p = process(std::move(item), process_options);
+                Processed p = process(std::move(item), process_options, input);
                 ++counts.read;
                 if (!p.result)
                     ++counts.unreadable;

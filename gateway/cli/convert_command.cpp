@@ -124,10 +124,10 @@ std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
     return done;
 }
 
-// What identifies an input for a resumed run: a neutral document's bytes, or
-// a device result as read (written as neutral JSON).
+// What identifies an input for a resumed run: a neutral document's or an HL7
+// message's bytes, or a result read from ASTM or CSV (written as neutral JSON).
 std::string resume_material(const ReadItem& item) {
-    if (!item.read) return item.bytes;
+    if (!item.read) return item.bytes;  // a neutral document or an HL7 message, as received
     std::string out = item.source;
     if (item.result) neutral::write_json(*item.result, out);
     return out;
@@ -150,12 +150,14 @@ nlohmann::json reject_json(const Work& w) {
 
 class Converter {
 public:
-    Converter(const ConvertOptions& o, const OutputFormat& f, UnitSystem units, bool sharded)
-        : o_(o), format_(f), units_(units), sharded_(sharded), out_dir_(o.out_dir) {
+    Converter(const ConvertOptions& o, const OutputFormat& f, UnitSystem units, bool sharded,
+              const InputContext& input, const std::string& profile_digest)
+        : o_(o), format_(f), units_(units), sharded_(sharded), out_dir_(o.out_dir), input_(input) {
         settings_ = o.writer;
         settings_.units = units;
         process_.targets = {f.target};
-        signature_ = options_signature(o);
+        // The profile's content, not only its name: a changed mapping converts again.
+        signature_ = options_signature(o) + "|" + profile_digest;
         if (!o.dry_run) {
             done_ = load_manifest(out_dir_);
             manifest_.open(out_dir_ / kManifestName, std::ios::app);
@@ -173,43 +175,33 @@ public:
         if (batch_.size() >= kBatchDocuments) flush();
     }
 
-    // Processes the batch on `jobs_` threads, then records it in input order.
-    // --jobs N is the number of threads at work, the reading one included.
-    // With N > 1 the batch goes to N - 1 worker threads and the main thread
-    // reads the next batch meanwhile (device readers parse there); results are
-    // recorded, in input order, when the next batch is handed over. With N = 1
-    // the main thread converts the batch itself.
+    // Hands the batch to the workers and records the one before it.
+    // --jobs N is the number of threads at work, the main one included:
+    // N - 1 workers convert a batch (reading the HL7 messages, preparing,
+    // rendering) while the main thread records the batch before it (files
+    // written in input order) and reads the files of the next; then the main
+    // thread joins in on what is left of the batch in flight. With N = 1 the
+    // main thread converts every batch itself.
     void flush() {
-        wait_inflight();
         if (batch_.empty()) return;
+        finish_inflight();
+        std::vector<Work> done = std::move(inflight_);
         inflight_ = std::move(batch_);
         batch_.clear();
+        batch_.reserve(kBatchDocuments);
         next_ = 0;
-        auto work = [this] {
-            for (std::size_t i = next_++; i < inflight_.size(); i = next_++)
-                convert_one(inflight_[i]);
-        };
-        if (jobs_ <= 1) {
-            work();
-            return;
-        }
         const unsigned threads =
             std::min<unsigned>(jobs_ - 1, static_cast<unsigned>(inflight_.size()));
-        for (unsigned t = 0; t < std::max(1u, threads); ++t) workers_.emplace_back(work);
-    }
-
-    // Waits for the batch in flight and records it.
-    void wait_inflight() {
-        for (auto& t : workers_) t.join();
-        workers_.clear();
-        for (Work& w : inflight_) record(w);
-        inflight_.clear();
+        for (unsigned t = 0; t < threads; ++t) workers_.emplace_back([this] { convert_some(); });
+        for (Work& w : done) record(w);
     }
 
     // Everything read so far is converted and recorded.
     void drain() {
         flush();
-        wait_inflight();
+        finish_inflight();
+        for (Work& w : inflight_) record(w);
+        inflight_.clear();
     }
 
     void note_unreadable_file(const std::string& source, const std::string& error) {
@@ -259,13 +251,25 @@ public:
     }
 
 private:
+    // Takes items of the batch in flight until none is left (any thread).
+    void convert_some() {
+        for (std::size_t i = next_++; i < inflight_.size(); i = next_++) convert_one(inflight_[i]);
+    }
+
+    // The main thread converts what the workers have not taken, then waits for them.
+    void finish_inflight() {
+        convert_some();
+        for (auto& t : workers_) t.join();
+        workers_.clear();
+    }
+
     void convert_one(Work& w) {
         if (!o_.dry_run) w.key = sha256_hex(signature_ + "\x1f" + resume_material(w.item));
         if (!o_.dry_run && done_.count(w.key)) {
             w.outcome = Outcome::skipped;
             return;
         }
-        w.processed = process(std::move(w.item), process_);
+        w.processed = process(std::move(w.item), process_, input_);
         if (!w.processed.result) {
             w.outcome = Outcome::unreadable;
             return;
@@ -274,9 +278,11 @@ private:
             w.outcome = Outcome::blocked;
             return;
         }
-        const NeutralResult rendered = render_units(*w.processed.result, units_, quantity_table());
-        format_.write(rendered, settings_, w.bytes);
-        w.relative_path = output_name(format_, rendered, sharded_);
+        // Rendered in place: what is recorded later needs the findings and the id only.
+        NeutralResult& result = *w.processed.result;
+        result = render_units(std::move(result), units_, quantity_table());
+        format_.write(result, settings_, w.bytes);
+        w.relative_path = output_name(format_, result, sharded_);
         w.outcome = Outcome::written;
     }
 
@@ -355,6 +361,7 @@ private:
     UnitSystem units_;
     bool sharded_;
     fs::path out_dir_;
+    const InputContext& input_;
     WriterSettings settings_;
     ProcessOptions process_;
     std::string signature_;
@@ -401,10 +408,22 @@ int run_convert(const ConvertOptions& o) {
     const auto start = std::chrono::steady_clock::now();
     std::vector<std::string> missing;
     const auto files = find_inputs(o.inputs, input.from, missing);
+    // Counting reads every file once more: done only for the progress bar, or
+    // where the number of files alone does not settle the subfolder rule
+    // (every input file but a CSV holds at least one result).
+    const bool progress = !o.quiet && isatty(fileno(stderr));
+    const bool many_files = input.from != InputFormat::csv && files.size() > kFlatFolderLimit;
     std::size_t total = 0;
-    for (const auto& f : files) total += count_documents(f, input.from);
+    if (progress || !many_files)
+        for (const auto& f : files) total += count_documents(f, input.from);
+    const bool sharded = many_files || total > kFlatFolderLimit;
+    std::string profile_digest;
+    if (!o.input.profile.empty()) {
+        std::ifstream in(o.input.profile, std::ios::binary);
+        profile_digest = sha256_hex(std::string(std::istreambuf_iterator<char>(in), {}));
+    }
 
-    Converter c(o, *format, *units, total > kFlatFolderLimit);
+    Converter c(o, *format, *units, sharded, input, profile_digest);
     if (!c.set_policy()) return kExitUsage;
     c.total = total;
     for (const auto& m : missing) c.note_unreadable_file(m, "no such file or folder: " + m);

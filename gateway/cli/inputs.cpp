@@ -1,8 +1,13 @@
 // See inputs.hpp.
 #include "gateway/cli/inputs.hpp"
 
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cerrno>
+#include <cstring>
 #include <fstream>
-#include <sstream>
 
 #include "adapters/astm/link_receiver.hpp"
 #include "adapters/astm/record_reader.hpp"
@@ -18,14 +23,30 @@ namespace {
 constexpr std::size_t kCsvChunkBytes = 64 * 1024;  // memory does not grow with the file
 
 bool read_whole(const fs::path& file, std::string& out, std::string& error) {
-    std::ifstream in(file, std::ios::binary);
-    if (!in) {
-        error = "cannot open " + file.string();
+    // One read into a buffer of the file's size: no stream buffers, no copies.
+    const int fd = ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
+        error = "cannot open " + file.string() + ": " + std::strerror(errno);
         return false;
     }
-    std::ostringstream ss;
-    ss << in.rdbuf();
-    out = std::move(ss).str();
+    struct stat st {};
+    std::size_t used = 0;
+    out.clear();
+    if (::fstat(fd, &st) == 0 && st.st_size > 0) out.resize(static_cast<std::size_t>(st.st_size));
+    for (;;) {
+        if (used == out.size()) out.resize(used + std::max<std::size_t>(4096, used));  // grew
+        const ssize_t n = ::read(fd, out.data() + used, out.size() - used);
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            error = "cannot read " + file.string() + ": " + std::strerror(errno);
+            ::close(fd);
+            return false;
+        }
+        if (n == 0) break;
+        used += static_cast<std::size_t>(n);
+    }
+    ::close(fd);
+    out.resize(used);
     return true;
 }
 
@@ -55,28 +76,24 @@ void emit_all(std::vector<ReadItem>&& items, std::vector<Finding>&& file_finding
     for (auto& item : items) fn(std::move(item));
 }
 
-void read_hl7_file(const std::string& bytes, const std::string& source, const InputContext& c,
+// Splits only: each message goes on as bytes, read later by finish_reading().
+void read_hl7_file(std::string&& bytes, const std::string& source,
                    const std::function<void(ReadItem&&)>& fn) {
-    hl7v2::Hl7ReadOptions options;
-    options.profile = c.profile;
-    options.resolve_offset = &offset_of;
-    auto outcome = hl7v2::read_hl7(bytes, options);
+    hl7v2::Hl7Split split = hl7v2::split_hl7(bytes);
     std::vector<ReadItem> items;
-    for (std::size_t i = 0; i < outcome.messages.size(); ++i) {
-        auto& m = outcome.messages[i];
+    items.reserve(split.messages.size());
+    for (std::size_t i = 0; i < split.messages.size(); ++i) {
+        const auto& m = split.messages[i];
         ReadItem item;
         item.source = source + "#" + std::to_string(i + 1);
-        item.read = true;
-        item.result = std::move(m.result);
-        if (item.result) {
-            item.findings =
-                item.result->findings;  // the reader's findings travel in the result too
-        } else {
-            item.findings = std::move(m.findings);
-        }
+        item.format = InputFormat::hl7v2;
+        if (split.messages.size() == 1 && m.begin == 0 && m.end == bytes.size())
+            item.bytes = std::move(bytes);
+        else
+            item.bytes.assign(bytes, m.begin, m.end - m.begin);
         items.push_back(std::move(item));
     }
-    emit_all(std::move(items), std::move(outcome.findings), source, fn);
+    emit_all(std::move(items), std::move(split.findings), source, fn);
 }
 
 void read_astm_file(const std::string& bytes, const std::string& source, const InputContext& c,
@@ -163,6 +180,20 @@ bool read_csv_file(const fs::path& file, const InputContext& c,
 
 }  // namespace
 
+void finish_reading(ReadItem& item, const InputContext& c) {
+    if (item.read || item.format != InputFormat::hl7v2) return;
+    hl7v2::Hl7ReadOptions options;
+    options.profile = c.profile;
+    options.resolve_offset = &offset_of;
+    hl7v2::ReadMessage m = hl7v2::read_hl7_message(item.bytes, 0, item.bytes.size(), options);
+    // The reader's findings travel in the result too; file findings come first.
+    const std::vector<Finding>& read = m.result ? m.result->findings : m.findings;
+    item.findings.insert(item.findings.end(), read.begin(), read.end());
+    item.result = std::move(m.result);
+    item.read = true;
+    item.bytes = std::string();  // the message is read: its bytes are not needed any more
+}
+
 std::optional<InputFormat> parse_input_format(std::string_view t) {
     if (t == "neutral") return InputFormat::neutral;
     if (t == "hl7v2") return InputFormat::hl7v2;
@@ -220,7 +251,7 @@ bool for_each_item(const fs::path& file, const InputContext& c,
             return true;
         }
         case InputFormat::hl7v2:
-            read_hl7_file(bytes, source, c, fn);
+            read_hl7_file(std::move(bytes), source, fn);
             return true;
         case InputFormat::astm:
             read_astm_file(bytes, source, c, fn);

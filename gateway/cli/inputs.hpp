@@ -18,13 +18,16 @@ namespace pftgw::cli {
 enum class InputFormat { neutral, hl7v2, astm, csv };
 std::optional<InputFormat> parse_input_format(std::string_view text);
 
-// One document, or one result read from a device dialect.
+// One document, or one result read from a device dialect. A document may
+// still be bytes (read == false): reading it is left to finish_reading(), so
+// that it can run on a worker thread while the next file is being read.
 struct ReadItem {
     std::string source;  // "file.xml", "archive.jsonl:17", "export.csv:204", "run.astm#2"
-    std::string bytes;   // neutral: the document, not yet read
-    bool read = false;   // true: result/findings below come from a device reader
+    std::string bytes;   // not read yet: one document in `format` (a neutral file, one HL7 message)
+    InputFormat format = InputFormat::neutral;
+    bool read = false;                    // true: result/findings below come from a reader
     std::optional<NeutralResult> result;  // device readers: the result as received
-    std::vector<Finding> findings;        // device readers: about this result or its input
+    std::vector<Finding> findings;        // about this result or its input (file findings too)
 };
 
 struct InputContext {
@@ -32,7 +35,13 @@ struct InputContext {
     const DeviceProfile* profile = nullptr;  // required for astm and csv
 };
 
-// Calls `fn` for every document or result in `file`. Returns false, with
+// Reads an HL7 message left as bytes by for_each_item() (any thread; the
+// context is only read). Neutral documents and items already read are left
+// as they are: process() reads neutral documents itself.
+void finish_reading(ReadItem& item, const InputContext& context);
+
+// Calls `fn` for every document or result in `file`, in file order. HL7
+// messages are handed over as bytes (split, not parsed: see finish_reading). Returns false, with
 // `error` set, when the file cannot be read at all.
 bool for_each_item(const std::filesystem::path& file, const InputContext& context,
                    const std::function<void(ReadItem&&)>& fn, std::string& error);

@@ -66,7 +66,7 @@ std::size_t count_documents(const fs::path& file, InputFormat from) {
     std::ifstream in(file, std::ios::binary);
     std::string buffer;
     std::size_t n = 0;
-    std::string chunk(64 * 1024, '\0');
+    static thread_local std::string chunk(64 * 1024, '\0');  // filled once, not per file
     while (in) {
         in.read(chunk.data(), static_cast<std::streamsize>(chunk.size()));
         // Keep the marker's length minus one from the previous chunk, so a marker
@@ -87,7 +87,8 @@ std::size_t count_documents(const fs::path& file, InputFormat from) {
     return 1;
 }
 
-Processed process(ReadItem&& item, const ProcessOptions& options) {
+Processed process(ReadItem&& item, const ProcessOptions& options, const InputContext& input) {
+    finish_reading(item, input);
     Processed out;
     out.source = std::move(item.source);
     std::optional<NeutralResult> read_result;

@@ -36,7 +36,8 @@ std::size_t count_documents(const std::filesystem::path& file, InputFormat from)
 
 using ProcessOptions = PrepareOptions;
 
-// Reads one document (when not read yet), then runs prepare_result() on it.
-Processed process(ReadItem&& item, const ProcessOptions& options);
+// Reads one document (when not read yet: finish_reading(), or the neutral
+// reader), then runs prepare_result() on it. Safe on any thread.
+Processed process(ReadItem&& item, const ProcessOptions& options, const InputContext& input);
 
 }  // namespace pftgw::cli

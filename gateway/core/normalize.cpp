@@ -397,7 +397,12 @@ std::vector<Finding> normalize(NeutralResult& result, const QuantityTable& table
 
 NeutralResult render_units(const NeutralResult& normalized, UnitSystem system,
                            const QuantityTable& table) {
-    NeutralResult out = normalized;
+    return render_units(NeutralResult(normalized), system, table);
+}
+
+NeutralResult render_units(NeutralResult&& normalized, UnitSystem system,
+                           const QuantityTable& table) {
+    NeutralResult out = std::move(normalized);
     const auto render = [&](Quantity& q, const QuantityPath&) {
         if (q.absent_reason) return;
         const QuantityKind* k = table.find(q.kind);

@@ -44,5 +44,8 @@ std::vector<Finding> normalize(NeutralResult& result, const QuantityTable& table
 // write what they are given.
 NeutralResult render_units(const NeutralResult& normalized, UnitSystem system,
                            const QuantityTable& table);
+// The same, reusing the given result instead of copying it.
+NeutralResult render_units(NeutralResult&& normalized, UnitSystem system,
+                           const QuantityTable& table);
 
 }  // namespace pftgw

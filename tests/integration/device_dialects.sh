@@ -79,5 +79,32 @@ PY
 # The CSV archive's other rows are results of their own.
 n=$(find "$work/csv" -name 'SPX3-*.json' | wc -l)
 [ "$n" -eq 3 ] && ok || bad "CSV archive gave $n results, expected 3"
+# An HL7 batch file (FHS/BHS ... BTS/FTS, three sessions, LF segment ends):
+# the same outputs with 1 and 2 jobs, a second run skips all three, and a
+# profile whose content changed (same file name) converts them again.
+python3 - samples/exports/spx3-ilvesson-2026-03-20.hl7 "$work/batch.hl7" <<'PY'
+import sys
+msg = open(sys.argv[1], 'rb').read().decode('ascii')
+out = ["FHS|^~\\&|FQ3|SPX3", "BHS|^~\\&|FQ3|SPX3"]
+for n in ("004801", "004802", "004803"):
+    out += [s.replace("004801", n) for s in msg.split("\r") if s]
+out += ["BTS|3", "FTS|1"]
+open(sys.argv[2], 'w').write("\n".join(out) + "\n")
+PY
+cp "$profile" "$work/profile.toml"
+batch() {  # batch OUT JOBS
+  "$pftgw" convert --quiet --from hl7v2 --profile "$work/profile.toml" --to fhir-json \
+    --jobs "$2" --out "$work/$1" "$work/batch.hl7"
+}
+summary() { python3 -c "import json,sys; print(json.load(open(sys.argv[1]))[sys.argv[2]])" "$work/$1/summary.json" "$2"; }
+batch b1 1 && batch b2 2 && ok || bad "HL7 batch: convert failed"
+[ "$(summary b1 written)" -eq 3 ] && ok || bad "HL7 batch: wrote $(summary b1 written), expected 3"
+diff -r -x summary.json "$work/b1" "$work/b2" >/dev/null && ok || bad "HL7 batch: --jobs 1 and 2 differ"
+batch b1 2
+[ "$(summary b1 skippedAlreadyWritten)" -eq 3 ] && ok || bad "HL7 batch: resumed run skipped $(summary b1 skippedAlreadyWritten)"
+echo "# the same mappings, edited" >> "$work/profile.toml"
+batch b1 2
+[ "$(summary b1 skippedAlreadyWritten)" -eq 0 ] && ok || bad "HL7 batch: a changed profile still skipped"
+
 echo "dialects: $passed passed, $failed failed"
 [ "$failed" -eq 0 ]

@@ -77,5 +77,39 @@ TEST(OruReaderBatch, ABrokenMessageDoesNotStopTheRest) {
     EXPECT_TRUE(out.messages[2].result);
 }
 
+// Split on one thread and read on others (pftgw convert): split_hl7 gives the
+// ranges and file findings read_hl7 gives, and reading each range alone, even
+// copied out of the file, gives the same result.
+TEST(OruReaderBatch, SplitThenReadEachGivesWhatReadHl7Gives) {
+    std::string b = one("B2", "3.02");
+    for (std::size_t at = b.find('\r'); at != std::string::npos; at = b.find('\r', at + 2))
+        b.replace(at, 1, "\r\n");  // CRLF segment ends in the second message
+    const std::string file = "ZZZ|before any message\r" + one("A1", "2.51") + "\x0b" + b +
+                             "\x1c\r" + "BHS|^~\\&\r" + one("C3", "1.97") + "BTS|2\r";
+    Hl7ReadOptions options;
+    const auto profile = spiroline_profile();
+    options.profile = &profile;
+    const Hl7ReadOutcome whole = read_hl7(file, options);
+    const Hl7Split split = split_hl7(file);
+    ASSERT_EQ(split.messages.size(), 3u);
+    ASSERT_EQ(whole.messages.size(), 3u);
+    ASSERT_EQ(split.findings.size(), 2u);  // the stray ZZZ and the BTS count (2, holds 1)
+    EXPECT_EQ(split.findings[0].rule, kRuleStraySegment);
+    EXPECT_EQ(split.findings[1].rule, kRuleBatchCount);
+    for (std::size_t i = 0; i < 3; ++i) {
+        const MessageRange r = split.messages[i];
+        EXPECT_EQ(r.begin, whole.messages[i].begin);
+        EXPECT_EQ(r.end, whole.messages[i].end);
+        const std::string copy = file.substr(r.begin, r.end - r.begin);
+        const ReadMessage alone = read_hl7_message(copy, 0, copy.size(), options);
+        ASSERT_TRUE(alone.result) << i;
+        EXPECT_EQ(*alone.result, *whole.messages[i].result) << i;
+        EXPECT_EQ(alone.control_id, whole.messages[i].control_id);
+    }
+    // The CRLF message's range ends after its last LF; the MLLP end byte is not in it.
+    EXPECT_EQ(file.substr(split.messages[1].end - 2, 2), "\r\n");
+    EXPECT_EQ(*whole.messages[2].result->tests[0].values[0].value, 1.97);
+}
+
 }  // namespace
 }  // namespace pftgw::hl7v2

@@ -15,6 +15,7 @@ debian_packages=(
   clang-format libxml2-utils python3 python3-hl7 libtomlplusplus-dev
   clang libclang-rt-14-dev
   libhowardhinnant-date-dev tzdata
+  libgoogle-perftools-dev
 )
 
 missing=()

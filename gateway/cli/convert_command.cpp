@@ -284,6 +284,8 @@ private:
         format_.write(result, settings_, w.bytes);
         w.relative_path = output_name(format_, result, sharded_);
         w.outcome = Outcome::written;
+        // Freed here, on the thread that built it, not later by the recording one.
+        w.processed.result.reset();
     }
 
     void record(Work& w) {

@@ -8,6 +8,8 @@
 #include <cerrno>
 #include <cstring>
 #include <fstream>
+#include <iostream>
+#include <nlohmann/json.hpp>
 
 #include "adapters/astm/link_receiver.hpp"
 #include "adapters/astm/record_reader.hpp"
@@ -22,32 +24,94 @@ namespace {
 
 constexpr std::size_t kCsvChunkBytes = 64 * 1024;  // memory does not grow with the file
 
-bool read_whole(const fs::path& file, std::string& out, std::string& error) {
-    // One read into a buffer of the file's size: no stream buffers, no copies.
-    const int fd = ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
-    if (fd < 0) {
-        error = "cannot open " + file.string() + ": " + std::strerror(errno);
-        return false;
-    }
+bool read_fd(int fd, const std::string& name, std::string& out, std::string& error) {
+    // One read into a buffer of the file's size when it has one: no stream
+    // buffers, no copies. Pipes grow the buffer as they go.
     struct stat st {};
     std::size_t used = 0;
     out.clear();
-    if (::fstat(fd, &st) == 0 && st.st_size > 0) out.resize(static_cast<std::size_t>(st.st_size));
+    if (::fstat(fd, &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0)
+        out.resize(static_cast<std::size_t>(st.st_size));
     for (;;) {
-        if (used == out.size()) out.resize(used + std::max<std::size_t>(4096, used));  // grew
+        if (used == out.size()) out.resize(used + std::max<std::size_t>(4096, used));
         const ssize_t n = ::read(fd, out.data() + used, out.size() - used);
         if (n < 0 && errno == EINTR) continue;
         if (n < 0) {
-            error = "cannot read " + file.string() + ": " + std::strerror(errno);
-            ::close(fd);
+            error = "cannot read " + name + ": " + std::strerror(errno);
             return false;
         }
         if (n == 0) break;
         used += static_cast<std::size_t>(n);
     }
-    ::close(fd);
     out.resize(used);
     return true;
+}
+
+bool read_whole(const fs::path& file, std::string& out, std::string& error) {
+    if (is_stdin(file)) return read_fd(STDIN_FILENO, std::string(kStdinSource), out, error);
+    const int fd = ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
+        error = "cannot open " + file.string() + ": " + std::strerror(errno);
+        return false;
+    }
+    const bool ok = read_fd(fd, file.string(), out, error);
+    ::close(fd);
+    return ok;
+}
+
+// The file, or standard input for "-"; nullptr (with `error`) when it cannot be opened.
+std::istream* open_input(const fs::path& file, std::ifstream& storage, std::string& error) {
+    if (is_stdin(file)) return &std::cin;
+    storage.open(file, std::ios::binary);
+    if (!storage) {
+        error = "cannot open " + file.string();
+        return nullptr;
+    }
+    return &storage;
+}
+
+// JSON Lines, line by line: an archive is never held in memory whole.
+// `first` is a line already taken from `in`, with `lines_before` lines before it.
+void read_jsonl(std::istream& in, const std::string& source, std::optional<std::string> first,
+                int lines_before, const std::function<void(ReadItem&&)>& fn) {
+    int line_no = lines_before;
+    const auto take = [&](std::string&& text) {
+        ++line_no;
+        if (text.find_first_not_of(" \t\r") == std::string::npos) return;
+        ReadItem item;
+        item.source = source + ":" + std::to_string(line_no);
+        item.bytes = std::move(text);
+        fn(std::move(item));
+    };
+    if (first) take(std::move(*first));
+    std::string line;
+    while (std::getline(in, line)) take(std::move(line));
+}
+
+// Neutral documents on standard input: JSON Lines when the first line that
+// is not blank is a JSON object of its own, else one XML or JSON document.
+void read_neutral_stdin(const std::function<void(ReadItem&&)>& fn) {
+    const std::string source(kStdinSource);
+    std::string head;  // the blank lines and the first line that is not
+    std::string line;
+    int blank = 0;
+    while (std::getline(std::cin, line)) {
+        if (line.find_first_not_of(" \t\r") != std::string::npos) break;
+        head += line + "\n";
+        ++blank;
+        line.clear();
+    }
+    if (!line.empty() && line[line.find_first_not_of(" \t")] == '{' &&
+        nlohmann::json::accept(line)) {
+        read_jsonl(std::cin, source, std::move(line), blank, fn);
+        return;
+    }
+    ReadItem item;
+    item.source = source;
+    item.bytes = std::move(head) + line;
+    if (std::cin) item.bytes += "\n";
+    item.bytes.append(std::istreambuf_iterator<char>(std::cin), {});
+    fn(std::move(item));
 }
 
 std::optional<int> offset_of(const std::string& zone, const LocalDateTime& local) {
@@ -152,12 +216,11 @@ void read_astm_file(const std::string& bytes, const std::string& source, const I
 
 bool read_csv_file(const fs::path& file, const InputContext& c,
                    const std::function<void(ReadItem&&)>& fn, std::string& error) {
-    std::ifstream in(file, std::ios::binary);
-    if (!in) {
-        error = "cannot open " + file.string();
-        return false;
-    }
-    csv::CsvReader reader(*c.profile, &offset_of, file.string());
+    std::ifstream storage;
+    std::istream* stream = open_input(file, storage, error);
+    if (!stream) return false;
+    std::istream& in = *stream;
+    csv::CsvReader reader(*c.profile, &offset_of, source_name(file));
     const csv::Emit emit = [&](csv::CsvRecord&& rec) {
         ReadItem item;
         item.source = std::move(rec.source);
@@ -194,6 +257,14 @@ void finish_reading(ReadItem& item, const InputContext& c) {
     item.bytes = std::string();  // the message is read: its bytes are not needed any more
 }
 
+bool is_stdin(const fs::path& p) {
+    return p == kStdinArgument;
+}
+
+std::string source_name(const fs::path& p) {
+    return is_stdin(p) ? std::string(kStdinSource) : p.string();
+}
+
 std::optional<InputFormat> parse_input_format(std::string_view t) {
     if (t == "neutral") return InputFormat::neutral;
     if (t == "hl7v2") return InputFormat::hl7v2;
@@ -220,24 +291,18 @@ bool is_input_file(const fs::path& p, InputFormat from) {
 bool for_each_item(const fs::path& file, const InputContext& c,
                    const std::function<void(ReadItem&&)>& fn, std::string& error) {
     if (c.from == InputFormat::csv) return read_csv_file(file, c, fn, error);
-    const std::string source = file.string();
+    const std::string source = source_name(file);
+    if (c.from == InputFormat::neutral && is_stdin(file)) {
+        read_neutral_stdin(fn);
+        return true;
+    }
     if (c.from == InputFormat::neutral && file.extension() == ".jsonl") {
-        // Line by line: a JSON Lines archive is never held in memory whole.
         std::ifstream in(file, std::ios::binary);
         if (!in) {
             error = "cannot open " + source;
             return false;
         }
-        std::string line;
-        int line_no = 0;
-        while (std::getline(in, line)) {
-            ++line_no;
-            if (line.find_first_not_of(" \t\r") == std::string::npos) continue;
-            ReadItem item;
-            item.source = source + ":" + std::to_string(line_no);
-            item.bytes = std::move(line);
-            fn(std::move(item));
-        }
+        read_jsonl(in, source, std::nullopt, 0, fn);
         return true;
     }
     std::string bytes;

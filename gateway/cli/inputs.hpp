@@ -46,6 +46,14 @@ void finish_reading(ReadItem& item, const InputContext& context);
 bool for_each_item(const std::filesystem::path& file, const InputContext& context,
                    const std::function<void(ReadItem&&)>& fn, std::string& error);
 
+// "-" names standard input; its results' sources read "stdin" ("stdin#2",
+// "stdin:14"). Neutral documents there are JSON Lines when the first line that
+// is not blank is a JSON object of its own, else one XML or JSON document.
+inline constexpr std::string_view kStdinArgument = "-";
+inline constexpr std::string_view kStdinSource = "stdin";
+bool is_stdin(const std::filesystem::path& p);
+std::string source_name(const std::filesystem::path& p);  // "stdin" for "-"
+
 // Which files of a folder are inputs for `from`.
 bool is_input_file(const std::filesystem::path& p, InputFormat from);
 

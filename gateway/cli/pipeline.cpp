@@ -48,7 +48,7 @@ std::vector<std::string> find_inputs(const std::vector<std::string>& args, Input
             }
             std::sort(found.begin(), found.end());
             out.insert(out.end(), found.begin(), found.end());
-        } else if (fs::exists(p, ec)) {
+        } else if (is_stdin(p) || fs::exists(p, ec)) {
             out.push_back(arg);
         } else {
             missing.push_back(arg);
@@ -59,6 +59,7 @@ std::vector<std::string> find_inputs(const std::vector<std::string>& args, Input
 
 std::size_t count_documents(const fs::path& file, InputFormat from) {
     if (from == InputFormat::neutral && file.extension() != ".jsonl") return 1;
+    if (is_stdin(file)) return 1;  // not known before it is read
     // Streamed in chunks: counting must not hold a large archive in memory.
     const std::string_view marker = from == InputFormat::hl7v2  ? std::string_view("MSH")
                                     : from == InputFormat::astm ? std::string_view("\rO|")

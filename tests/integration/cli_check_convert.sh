@@ -95,6 +95,21 @@ skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skipp
 skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
 [ "$skipped" -eq 0 ] && ok || bad "a run with other options skipped $skipped"
 
+# Neutral documents on standard input ("-"): one XML document, and JSON Lines
+# (each line a result, named stdin:LINE) give what the files give.
+"$pftgw" convert --quiet --to hl7v2 --out "$work/stdin-xml" - < samples/lab/2026-03-02-ilvesson-spirometry.xml
+"$pftgw" convert --quiet --to hl7v2 --out "$work/file-xml" samples/lab/2026-03-02-ilvesson-spirometry.xml
+diff -r -x summary.json -x .pftgw-done "$work/stdin-xml" "$work/file-xml" >/dev/null && ok || bad "XML on stdin differs from the file"
+python3 -c "import json,sys; [print(json.dumps(json.load(open(f)))) for f in sys.argv[1:]]" \
+  samples/lab/2026-03-02-brennigan-spirometry.json samples/lab/bad-unit-not-ucum.json > "$work/two.jsonl"
+"$pftgw" check --format json - < "$work/two.jsonl" > "$work/stdin.json"
+python3 - "$work/stdin.json" <<'PY' && ok || bad "JSON Lines on stdin: not two results stdin:1 and stdin:2"
+import json, sys
+d = json.load(open(sys.argv[1]))
+sources = [r["source"] for r in d["results"]]
+sys.exit(0 if sources == ["stdin:1", "stdin:2"] else 1)
+PY
+
 # The quantity table's Markdown rendering is committed and current.
 "$pftgw" quantities --format markdown > "$work/QUANTITIES.md"
 if diff -u schemas/QUANTITIES.md "$work/QUANTITIES.md" > "$work/q.diff"; then ok; else bad "schemas/QUANTITIES.md is stale: run pftgw quantities --format markdown > schemas/QUANTITIES.md"; head -20 "$work/q.diff"; fi

@@ -79,6 +79,17 @@ PY
 # The CSV archive's other rows are results of their own.
 n=$(find "$work/csv" -name 'SPX3-*.json' | wc -l)
 [ "$n" -eq 3 ] && ok || bad "CSV archive gave $n results, expected 3"
+# "-" is standard input: the HL7 message and the CSV archive piped in give
+# the same files as read from disk.
+"$pftgw" convert --quiet --from hl7v2 --profile "$profile" --to neutral-json --out "$work/stdin-hl7" - \
+  < samples/exports/spx3-ilvesson-2026-03-20.hl7 && ok || bad "HL7 on stdin: convert failed"
+diff "$work/hl7v2/SPX3-004801.json" "$work/stdin-hl7/SPX3-004801.json" >/dev/null && ok ||
+  bad "HL7 on stdin differs from the file"
+"$pftgw" convert --quiet --from csv --profile "$profile" --to neutral-json --out "$work/stdin-csv" - \
+  < samples/exports/spx3-archive-2026-03.csv && ok || bad "CSV on stdin: convert failed"
+diff -r -x summary.json -x rejects.jsonl -x .pftgw-done "$work/csv" "$work/stdin-csv" >/dev/null && ok ||
+  bad "CSV on stdin differs from the file"
+
 # An HL7 batch file (FHS/BHS ... BTS/FTS, three sessions, LF segment ends):
 # the same outputs with 1 and 2 jobs, a second run skips all three, and a
 # profile whose content changed (same file name) converts them again.

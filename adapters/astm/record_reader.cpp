@@ -312,6 +312,11 @@ struct CommentTarget {
     char type = 0;  // 'H', 'P', 'O', 'R'
     TestType test = TestType::spirometry;
     std::string kind;  // the value an R comment is about
+    // The R record made a value of the model (not a predicted or LLN record,
+    // a duplicate or an unmapped code): its comments go to that value, in
+    // the trial numbered `trial` when it is a per-maneuver value.
+    bool on_value = false;
+    std::optional<int> trial;
 };
 CommentTarget comment_target(char type) {
     CommentTarget t;
@@ -598,6 +603,8 @@ private:
                    {{"code", r.text(3, 4)}, {"value", r.text(4)}, {"unit", r.text(5)}});
             return;
         }
+        // Until this R makes a value, a comment after it goes to the test.
+        target_.on_value = false;
         // R-3 universal test id ^^^local-code: the 4th component; a device
         // that sends fewer components gets its first non-empty one.
         const auto test_id = r.repeats(3).front();
@@ -721,7 +728,9 @@ private:
             return;
         }
         if (!in.flags.empty()) flag_extension(res).properties.push_back({q.kind, in.flags});
-        target_ = CommentTarget{'R', *test_type, q.kind};
+        target_ = comment_target('R');
+        target_.test = *test_type;
+        target_.kind = q.kind;
         if (kind->variant != "measured") {
             s.variants.push_back({*test_type, kind, std::move(q), in.path});
             return;
@@ -745,6 +754,8 @@ private:
                 it->time = in.time;
             }
             it->values.push_back(std::move(q));
+            target_.on_value = true;
+            target_.trial = number;
             return;
         }
         if (t.find(q.kind)) {
@@ -754,6 +765,22 @@ private:
             return;
         }
         t.values.push_back(std::move(q));
+        target_.on_value = true;
+    }
+
+    // The value an R comment is about, if its R record made one.
+    static Quantity* value_of(NeutralResult& res, const CommentTarget& target) {
+        if (!target.on_value) return nullptr;
+        Test* t = res.find_test(target.test);
+        if (!t) return nullptr;
+        if (!target.trial) return t->find(target.kind);
+        for (Trial& tr : t->trials) {
+            if (tr.number != *target.trial) continue;
+            // The last one: a trial may repeat a kind, and the comment follows the newest.
+            for (auto it = tr.values.rbegin(); it != tr.values.rend(); ++it)
+                if (it->kind == target.kind) return &*it;
+        }
+        return nullptr;
     }
 
     // R-6 "2.10 to 3.50" or "2.10-3.50": the device's own LLN and ULN.
@@ -850,7 +877,12 @@ private:
                    {{"flag", text}, {"kind", target_.kind}});
         switch (target_.type) {
             case 'R':
-                if (session_) test_of(session_->result, target_.test).comments.push_back(text);
+                // E1394: a C record after an R record is a comment on that result.
+                if (!session_) break;
+                if (Quantity* q = value_of(session_->result, target_))
+                    q->comments.push_back(text);
+                else
+                    test_of(session_->result, target_.test).comments.push_back(text);
                 break;
             case 'O':
                 if (session_) session_->order_comments.push_back(text);

@@ -891,6 +891,9 @@ private:
     void measured_notes(const TestPlan&, const ObservationPlan& op) {
         const Quantity& q = *op.quantity;
         NoteList notes(*this);
+        // The device's comments on this value first, as they were sent
+        // (FHIR R4 Observation.note is Annotation[]; one Annotation each).
+        for (const auto& c : q.comments) notes.add(c);
         if (q.condition == GasCondition::btps || q.condition == GasCondition::stpd ||
             q.condition == GasCondition::atps || q.condition == GasCondition::atpd) {
             std::string& text = notes.text();

@@ -363,6 +363,7 @@ private:
 
     void read_obr(const Segment& s, int occurrence) {
         obr_ = occurrence;
+        last_value_.reset();
         group_time_.reset();
         group_test_.reset();
         Order& o = result_->order;
@@ -379,10 +380,31 @@ private:
         }
     }
 
+    // A value the last OBX made, by index (later OBX grow the vectors).
+    struct ValueRef {
+        std::size_t test;
+        std::optional<std::size_t> trial;
+        std::size_t index;
+    };
+
+    Quantity& value_at(const ValueRef& v) {
+        Test& t = result_->tests[v.test];
+        return v.trial ? t.trials[*v.trial].values[v.index] : t.values[v.index];
+    }
+
+    // HL7 v2.5.1 ch. 7 (ORU^R01 structure): an NTE after an OBX is a comment
+    // on that observation, one after the OBR a comment on the whole order.
     void read_nte(const Segment& s) {
         if (obr_ == 0) return;  // NTE after PID: patient notes, not results
         const std::string text = m_.text_of(s, 3);
-        if (!text.empty()) comments_.push_back({group_test_, text});
+        if (text.empty()) return;
+        if (last_value_) {
+            value_at(*last_value_).comments.push_back(text);
+            return;
+        }
+        // After the OBR, or after an OBX that made no value of a test (unmapped,
+        // withdrawn, a predicted or LLN value, a subject or ambient value): the test's.
+        comments_.push_back({group_test_, text});
     }
 
     const CodeMapping* find_mapping(const std::string& code, const std::string& system) const {
@@ -406,6 +428,7 @@ private:
 
     void read_obx(const Segment& s, int occurrence) {
         const Hl7Location loc{"OBX", occurrence, 0};
+        last_value_.reset();  // until this OBX makes a value of a test
         if (obr_ == 0 && !warned_order_) {
             warned_order_ = true;
             add(kRuleSegmentOrder, Severity::warning, "", "OBX before any OBR; read anyway", {},
@@ -545,6 +568,7 @@ private:
             out_.locations.push_back(
                 {"tests[" + std::to_string(ti) + "].values[" + q.kind + "]", loc});
             test.values.push_back(std::move(q));
+            last_value_ = ValueRef{ti, std::nullopt, test.values.size() - 1};
             return;
         }
         int number = 0;
@@ -571,6 +595,7 @@ private:
                                       "].values[" + q.kind + "]",
                                   loc});
         trial.values.push_back(std::move(q));
+        last_value_ = ValueRef{ti, tj, trial.values.size() - 1};
     }
 
     ReferenceValues& reference_of(Quantity& q) {
@@ -677,6 +702,7 @@ private:
     int obr_ = 0;
     std::optional<Timestamp> group_time_;
     std::optional<std::size_t> group_test_;
+    std::optional<ValueRef> last_value_;  // an NTE after it is about that value
     std::vector<std::pair<std::optional<std::size_t>, std::string>> comments_;
     std::vector<PendingVariant> variants_;
     bool corrected_ = false;

@@ -28,7 +28,11 @@
 //   OBX-14           the value's time: the test time when OBR-7 is empty; trial time
 //   OBX-4            the trial number of a per-maneuver value (CodeMapping.trial_value)
 //   OBX-18.1         device id
-//   NTE              comments of the test the OBR group's values belong to
+//   NTE              after an OBX that made a value of a test (reported or
+//                    per-maneuver): that value's comments; after the OBR, or
+//                    after an OBX that made none (unmapped, withdrawn, a variant,
+//                    a subject or ambient value): comments of the test the OBR
+//                    group's values belong to
 // Variant kinds ("FEV1.pred", ".lln", ".uln", ".z", ".pctpred") go into the
 // base quantity's first ReferenceValues (the profile's equation_set).
 // A code the profile does not map is a "profile.unmapped-code" warning holding

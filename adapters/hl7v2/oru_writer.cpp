@@ -882,6 +882,9 @@ private:
         end_obx(present ? status_ : kStatusCannotObtain);
 
         nte_set_ = 0;
+        // HL7 v2.5.1 ch. 7: an NTE after an OBX is a comment on that
+        // observation, so the value's own comments come first, right after it.
+        for (const auto& c : q.comments) write_nte(kNoteFromLab, c);
         if (!present) {
             begin_nte(kNoteFromLab);
             out_.put("Not reported: ");

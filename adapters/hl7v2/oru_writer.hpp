@@ -20,6 +20,8 @@
 // - an absent quantity is an OBX with empty OBX-2/OBX-5 and OBX-11 "X"
 //   (table 0085 "results cannot be obtained"; "N" only means "not asked", which
 //   the gateway cannot know), followed by an NTE with the reason;
+// - a value's own comments are NTE (NTE-2 "L") directly after its OBX, before
+//   the writer's notes on it; the test's comments are NTE after the OBR;
 // - CR, LF and every other control byte in text are hex escapes (\X0D\, \X0A\),
 //   never ".br": exact round trip in any text type, and no MLLP byte can leak.
 #pragma once

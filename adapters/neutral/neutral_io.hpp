@@ -12,7 +12,7 @@ namespace pftgw::neutral {
 
 inline constexpr std::string_view kNamespace = "https://pftgw.example/ns/result";
 inline constexpr int kSchemaMajor = 1;
-inline constexpr int kSchemaMinor = 1;  // 1.1: reference unit, trial tracer
+inline constexpr int kSchemaMinor = 2;  // 1.1: reference unit, trial tracer; 1.2: value comments
 
 // What a reader hands back: a result (absent when the input could not be read
 // as one) and findings about the input (unknown elements, bad values ...),

@@ -517,6 +517,9 @@ void JsonReader::quantity(const Json& j, Quantity& q, const Path* parent, std::s
         } else if (k == "derivedFrom") {
             if (!array(v, p.child(k), k)) continue;
             for (const Json& d : v) str(d, p.child(k), k, q.derived_from.emplace_back());
+        } else if (k == "comments") {
+            if (!array(v, p.child(k), k)) continue;
+            for (const Json& c : v) str(c, p.child(k), k, q.comments.emplace_back());
         } else {
             unknown(k, p);
         }
@@ -815,6 +818,15 @@ void JsonWriter::quantity(const Quantity& q) {
             escape_json(out_, q.derived_from[i]);
         }
         out_ += ']';
+    }
+    if (!q.comments.empty()) {
+        key("comments");
+        open('[');
+        for (const std::string& c : q.comments) {
+            element();
+            escape_json(out_, c);
+        }
+        close(']');
     }
     close('}');
 }

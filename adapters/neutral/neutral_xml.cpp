@@ -441,6 +441,8 @@ void XmlReader::read_quantity(pugi::xml_node n, Quantity& q, const Path* parent,
             q.derived_from.emplace_back(kind.value());
             for (pugi::xml_attribute a = c.first_attribute(); a; a = a.next_attribute())
                 if (std::strcmp(a.name(), "kind") != 0) unknown_attribute(c, a, p);
+        } else if (l == "comment") {
+            q.comments.emplace_back(c.child_value());
         } else {
             unknown_element(c, p);
         }
@@ -714,7 +716,7 @@ void XmlWriter::quantity(int depth, std::string_view tag, const Quantity& q) {
     if (q.absent_reason) attr("absent", *q.absent_reason);
     const bool explicit_source = !(q.source == detail::implied_source(q));
     if (!explicit_source && !q.derivation && q.reference.empty() && q.trials.empty() &&
-        q.derived_from.empty()) {
+        q.derived_from.empty() && q.comments.empty()) {
         out_ += "/>\n";
         return;
     }
@@ -766,6 +768,7 @@ void XmlWriter::quantity(int depth, std::string_view tag, const Quantity& q) {
         attr("kind", k);
         out_ += "/>\n";
     }
+    for (const std::string& c : q.comments) text_element(depth + 1, "comment", c);
     indent(depth);
     out_ += "</";
     out_ += tag;

@@ -75,6 +75,9 @@ struct Quantity {
     std::vector<ReferenceValues> reference;
     std::vector<int> trials;                // trial numbers the reported value came from
     std::vector<std::string> derived_from;  // kinds it was computed from (KCO <- DLCO, VA)
+    // Free text about this value alone (an ASTM C record after its R record,
+    // an HL7 NTE after its OBX); comments on the whole test are Test::comments.
+    std::vector<std::string> comments;
     bool operator==(const Quantity&) const = default;
 };
 
@@ -182,7 +185,7 @@ std::string_view to_string(ResultStatus s);  // "final", "preliminary", "correct
 std::optional<ResultStatus> parse_result_status(std::string_view text);
 
 struct NeutralResult {
-    std::string schema_version = "1.1";
+    std::string schema_version = "1.2";
     std::string id;    // stable identifier (identity.hpp); derived when empty
     int revision = 1;  // a correction from the device is the next revision
     ResultStatus status = ResultStatus::final;

@@ -164,6 +164,8 @@ def quantity_xml(tag, qd, ind):
         kids.append(f'<trialRef number="{t}"/>')
     for k in qd.get("derivedFrom", []):
         kids.append(f'<derivedFrom kind="{k}"/>')
+    for c in qd.get("comments", []):  # schema 1.2: comments on this value alone
+        kids.append(f"<comment>{escape(c)}</comment>")
     head = f"{ind}<{tag}{attrs(qd, QATTRS)}"
     if not kids:
         return head + "/>\n"
@@ -286,14 +288,15 @@ SESSIONS.append(("2026-03-02-brennigan-spirometry.json", doc(
         q("FET", 9.4, "s", "none")],
         comments=["Pre-bronchodilator only; patient declined salbutamol"])])))
 
-# 3. Spirometry, BOX2, BTPS in L, GLI Global 2022.
+# 3. Spirometry, BOX2, BTPS in L, GLI Global 2022; schema 1.2 for the
+#    comments on single values (PEF, trial 3's FEV1).
 SESSIONS.append(("2026-03-03-castellow-spirometry.xml", doc(
-    "KVH-BOX2-3301", "3301", "2026-03-03T10:05:00+01:00", "castellow", "BOX2",
+    "KVH-BOX2-3301", "3301", "2026-03-03T10:05:00+01:00", "castellow", "BOX2", schema="1.2",
     tests=[dict(type="spirometry", time="2026-03-03T10:08:00+01:00", values=[
         q("FEV1", 3.41, "L", "BTPS", ref(GLI22, 3.28, 2.62, 3.94, 0.33, 104), [1]),
         q("FVC", 4.02, "L", "BTPS", ref(GLI22, 3.86, 3.11, 4.61, 0.35, 104), [1]),
         q("FEV1_FVC", 0.848, "1", "none", ref(GLI22, 0.85, 0.75, 0.95, -0.02, 100)),
-        q("PEF", 7.35, "L/s", "BTPS"),
+        q("PEF", 7.35, "L/s", "BTPS", comments=["Peak reached late on trial 2; PEF from trial 1"]),
         q("FEF25_75", 3.6, "L/s", "BTPS"),
         q("FET", 6.8, "s", "none")],
         trials=[dict(number=1, time="2026-03-03T10:06:00+01:00", operatorAccepted=True,
@@ -301,15 +304,18 @@ SESSIONS.append(("2026-03-03-castellow-spirometry.xml", doc(
                 dict(number=2, time="2026-03-03T10:07:00+01:00", operatorAccepted=True,
                      values=[q("FEV1", 3.36, "L", "BTPS"), q("FVC", 3.98, "L", "BTPS")]),
                 dict(number=3, time="2026-03-03T10:08:00+01:00", operatorAccepted=False,
-                     values=[q("FEV1", 3.05, "L", "BTPS"), q("FVC", 3.7, "L", "BTPS")])],
+                     values=[q("FEV1", 3.05, "L", "BTPS", comments=["Cough at 0.6 s"]),
+                             q("FVC", 3.7, "L", "BTPS")])],
         comments=["Trial 3 rejected: cough in first second"])])))
 
-# 4. Spirometry, obstructive, with a comment full of HL7 delimiters.
+# 4. Spirometry, obstructive, with a comment full of HL7 delimiters, on the
+#    test and (schema 1.2) on FEV1 alone.
 SESSIONS.append(("2026-03-03-delacorte-spirometry.json", doc(
-    "KVH-BOX2-3302", "3302", "2026-03-03T11:00:00+01:00", "delacorte", "BOX2",
+    "KVH-BOX2-3302", "3302", "2026-03-03T11:00:00+01:00", "delacorte", "BOX2", schema="1.2",
     order=dict(placer="ORD-55201", accession="ACC-26-01920"),
     tests=[dict(type="spirometry", time="2026-03-03T11:04:00+01:00", values=[
-        q("FEV1", 1.48, "L", "BTPS", ref(GLI12, 2.78, 2.04, 3.52, -2.92, 53), [2]),
+        q("FEV1", 1.48, "L", "BTPS", ref(GLI12, 2.78, 2.04, 3.52, -2.92, 53), [2],
+          comments=["z < -2.5 | repeat ^ after & bronchodilator ~ next visit"]),
         q("FVC", 2.85, "L", "BTPS", ref(GLI12, 3.71, 2.79, 4.63, -1.55, 77), [1]),
         q("FEV1_FVC", 0.519, "1", "none", ref(GLI12, 0.73, 0.6, 0.85, -3.1, 71)),
         q("PEF", 4.2, "L/s", "BTPS"),

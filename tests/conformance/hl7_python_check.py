@@ -19,7 +19,9 @@ absent, unit), tests[].comments[] and findings[]. Checks per message:
     decimals, OBX-6 unit (unescaped) equal to the neutral unit; an absent
     value has an empty OBX-5 and OBX-11 X;
   - every test comment decodes (hl7's unescape) to an NTE of its OBR group,
-    exactly; every warning or error finding's message is inside a decoded NTE,
+    exactly; a value's comments (tests[].values[].comments[]) decode, in
+    order, to the first NTEs right after that value's OBX (HL7 v2.5.1 ch. 7,
+    from memory: an NTE after an OBX is a comment on that observation); every warning or error finding's message is inside a decoded NTE,
     and so is every quality.* / adjust.* finding (grades, acceptability,
     repeatability) but the "not assessed" / "not graded" notes, which stay in `check`;
   - each quality.grade finding at tests[i] with values ("FEV1", "A") ... has
@@ -88,10 +90,13 @@ def check_message(name, text, neutral, codes, seen_ids):
 
     # OBR groups: measured OBX and decoded NTE texts per group.
     groups = []
+    after_obx = None  # the decoded NTE texts right after the last measured OBX
     for seg in msg:
         sid = field(seg, 0)
+        if sid != "NTE":
+            after_obx = None
         if sid == "OBR":
-            groups.append({"obx": [], "notes": [], "grades": {}})
+            groups.append({"obx": [], "obx_notes": [], "notes": [], "grades": {}})
         elif not groups:
             continue
         elif sid == "OBX" and field(seg, 2) == "ST" and component(seg, 3, 1).endswith(".grade"):
@@ -101,6 +106,8 @@ def check_message(name, text, neutral, codes, seen_ids):
             groups[-1]["grades"][name] = msg.unescape(field(seg, 5))
         elif sid == "OBX" and field(seg, 4) == "":
             groups[-1]["obx"].append(seg)
+            groups[-1]["obx_notes"].append([])
+            after_obx = groups[-1]["obx_notes"][-1]
         elif sid == "NTE":
             # Text is one value: python-hl7 gives a Field of plain strings;
             # nested repetitions/components mean an unescaped ^ ~ & in the text.
@@ -112,6 +119,8 @@ def check_message(name, text, neutral, codes, seen_ids):
                 errors.append(f"NTE {field(seg, 1)}: NTE-3 has unescaped delimiters: {field(seg, 3)!r}")
                 continue
             groups[-1]["notes"].append(msg.unescape(field(seg, 3)))
+            if after_obx is not None:
+                after_obx.append(groups[-1]["notes"][-1])
 
     tests = neutral.get("tests", [])
     if len(groups) != len(tests):
@@ -123,9 +132,13 @@ def check_message(name, text, neutral, codes, seen_ids):
         if len(group["obx"]) != len(values):
             errors.append(f"test {t}: {len(group['obx'])} measured OBX for {len(values)} values")
             continue
-        for obx, value in zip(group["obx"], values):
+        for obx, obx_notes, value in zip(group["obx"], group["obx_notes"], values):
             kind = value["kind"]
             where = f"test {t} {kind}"
+            comments = value.get("comments", [])
+            if obx_notes[: len(comments)] != comments:
+                errors.append(f"{where}: comments {comments!r} but the NTEs right after "
+                              f"its OBX decode to {obx_notes!r}")
             want = codes.get(kind)
             got = (component(obx, 3, 1), component(obx, 3, 3))
             if want is None or got != want:

@@ -151,8 +151,11 @@ TEST(E1394Reader, RepeatsAndComponents) {
     EXPECT_EQ(r.subject.identifiers[0].value, "KV100231");
     EXPECT_EQ(r.subject.identifiers[0].type, "MR");
     EXPECT_EQ(r.subject.given_name, "Marta Ann");  // first^middle
-    ASSERT_EQ(r.tests[0].comments.size(), 1u);
-    EXPECT_EQ(r.tests[0].comments[0], "good effort coached repeat 3");
+    // The C follows the FEV1 R record, so it is that value's comment.
+    EXPECT_TRUE(r.tests[0].comments.empty());
+    ASSERT_NE(value_of(r, "FEV1"), nullptr);
+    EXPECT_EQ(value_of(r, "FEV1")->comments,
+              std::vector<std::string>{"good effort coached repeat 3"});
 }
 
 TEST(E1394Reader, Escapes) {
@@ -174,8 +177,9 @@ TEST(E1394Reader, Escapes) {
     const auto out = read_e1394(text, spirometer(), plus_one_hour, "");
     ASSERT_EQ(out.results.size(), 1u);
     EXPECT_EQ(out.results[0].subject.family_name, "Delacorte|Hale");
-    ASSERT_EQ(out.results[0].tests[0].comments.size(), 1u);
-    EXPECT_EQ(out.results[0].tests[0].comments[0], "FEV1 ^ FVC & more\\");
+    ASSERT_NE(value_of(out.results[0], "FEV1"), nullptr);
+    EXPECT_EQ(value_of(out.results[0], "FEV1")->comments,
+              std::vector<std::string>{"FEV1 ^ FVC & more\\"});
 }
 
 TEST(E1394Reader, TwoPatientsTwoSessionsEach) {
@@ -221,10 +225,11 @@ TEST(E1394Reader, CommentsAttachToTheRecordBefore) {
     ASSERT_EQ(out.results.size(), 1u);
     const auto& r = out.results[0];
     ASSERT_EQ(r.tests.size(), 1u);
-    // C after O: about the order, so on every test; C after R: on its test.
-    ASSERT_EQ(r.tests[0].comments.size(), 2u);
-    EXPECT_EQ(r.tests[0].comments[0], "referred for dyspnoea");
-    EXPECT_EQ(r.tests[0].comments[1], "BEV above limit");
+    // C after O: about the order, so on every test; C after R: on that result
+    // (E1394, interop-facts.md: a C record comments on the record before it).
+    EXPECT_EQ(r.tests[0].comments, std::vector<std::string>{"referred for dyspnoea"});
+    ASSERT_NE(value_of(r, "FEV1"), nullptr);
+    EXPECT_EQ(value_of(r, "FEV1")->comments, std::vector<std::string>{"BEV above limit"});
     // C-5 'I' instrument flag: also a finding naming the value it is about.
     const Finding* flag = finding(r.findings, "device.flag");
     ASSERT_NE(flag, nullptr);
@@ -234,6 +239,49 @@ TEST(E1394Reader, CommentsAttachToTheRecordBefore) {
     ASSERT_EQ(r.extensions.size(), 1u);
     EXPECT_EQ(r.extensions[0].name, "patient-comment");
     EXPECT_EQ(r.extensions[0].properties[0].second, "wheelchair user");
+}
+
+TEST(E1394Reader, CommentAfterAResultIsThatValuesComment) {
+    // E1394 (interop-facts.md, flag M): a C record is about the record before it.
+    const std::string text =
+        "H|\\^&\r"
+        "P|1|X\r"
+        "O|1\r"
+        "R|1|^^^F1|2010|ml\r"
+        "C|1|L|first on FEV1|G\r"
+        "C|2|L|second on FEV1|G\r"
+        "R|2|^^^FVC|2950|ml\r"
+        "C|1|I|back-extrapolation high|I\r"
+        "R|3|^^^F1T^2|1980|ml\r"
+        "C|1|L|cough on trial 2|G\r"
+        "R|4|^^^F1P|2.27|L\r"  // a predicted value is no value of its own: the test's
+        "C|1|L|after the prediction|G\r"
+        "R|5|^^^MVV|120|l/min\r"  // unmapped: no value made, so the test keeps it
+        "C|1|L|after an unmapped code|G\r"
+        "R|6|^^^FVC|2990|ml\r"  // a duplicate is not kept: nor is it the value's
+        "C|1|L|after a duplicate|G\r"
+        "L|1|N\r";
+    const auto out = read_e1394(text, spirometer(), plus_one_hour, "");
+    ASSERT_EQ(out.results.size(), 1u);
+    const auto& r = out.results[0];
+    ASSERT_EQ(r.tests.size(), 1u);
+    const Quantity* fev1 = value_of(r, "FEV1");
+    const Quantity* fvc = value_of(r, "FVC");
+    ASSERT_NE(fev1, nullptr);
+    ASSERT_NE(fvc, nullptr);
+    EXPECT_EQ(fev1->comments, (std::vector<std::string>{"first on FEV1", "second on FEV1"}));
+    EXPECT_EQ(fvc->comments, std::vector<std::string>{"back-extrapolation high"});
+    ASSERT_EQ(r.tests[0].trials.size(), 1u);
+    ASSERT_EQ(r.tests[0].trials[0].values.size(), 1u);
+    EXPECT_EQ(r.tests[0].trials[0].values[0].comments,
+              std::vector<std::string>{"cough on trial 2"});
+    EXPECT_EQ(r.tests[0].comments,
+              (std::vector<std::string>{"after the prediction", "after an unmapped code",
+                                        "after a duplicate"}));
+    // The 'I' instrument flag is still a finding naming its value.
+    const Finding* flag = finding(r.findings, "device.flag");
+    ASSERT_NE(flag, nullptr);
+    EXPECT_EQ(value_named(*flag, "kind"), "FVC");
 }
 
 TEST(E1394Reader, UnmappedCodeIsAFindingWithTheValue) {

@@ -275,6 +275,32 @@ TEST(FhirBundleJson, WarningFindingTravelsAsNoteOfItsQuantity) {
         EXPECT_EQ(n["text"].get<std::string>().find("consistency.kco"), std::string::npos);
 }
 
+// FHIR R4 Observation.note is Annotation[] (0..*), Annotation.text markdown
+// (1..1): a value's comments are notes of that value's Observation, first,
+// before the gateway's own notes and the findings.
+TEST(FhirBundleJson, ValueCommentsAreNotesOfTheirObservation) {
+    auto r = testing::example_normalized_result();
+    Quantity* kco = r.tests[2].find("KCO");
+    ASSERT_NE(kco, nullptr);
+    kco->comments = {"breath-hold short", "second comment"};
+    const auto b = parse(write_json(r));
+    const auto& notes = (*entry_by_part(b, "obs-KCO"))["resource"]["note"];
+    ASSERT_GE(notes.size(), 3u);
+    EXPECT_EQ(notes[0]["text"], "breath-hold short");
+    EXPECT_EQ(notes[1]["text"], "second comment");
+    // The example's consistency.kco warning is still there, after them.
+    EXPECT_NE(notes.back()["text"].get<std::string>().find("consistency.kco"), std::string::npos);
+    // Not on another Observation, nor on the panel.
+    int seen = 0;
+    for (const auto& e : b["entry"])
+        for (const auto& n : e["resource"].value("note", json::array()))
+            if (n["text"] == "breath-hold short") ++seen;
+    EXPECT_EQ(seen, 1);
+    // The XML form carries the same Annotation (R4 XML: <note><text value=.../></note>).
+    const std::string xml = write_xml(r);
+    EXPECT_NE(xml.find("<note><text value=\"breath-hold short\"/></note>"), std::string::npos);
+}
+
 TEST(FhirBundleJson, InterpretationIsOnlyLowHighOrNormal) {
     auto r = testing::example_normalized_result();
     r.tests[0].values[0].value = 1.90;  // FEV1 below its LLN 2.10

@@ -152,6 +152,54 @@ TEST(OruReaderMapping, UnmappedCodeIsKeptAsAFinding) {
     EXPECT_EQ(m.result->tests[0].values.size(), 1u);
 }
 
+// HL7 v2.5.1 ch. 7 (ORU^R01: OBR {NTE} {OBX {NTE}}, from memory): an NTE
+// after an OBX is a comment on that observation; one after the OBR, before
+// any OBX, a comment on the order (the test). An OBX that makes no value of a
+// test (unmapped, withdrawn, a predicted value, the height) leaves its NTE on
+// the test, where it was before values had comments of their own.
+TEST(OruReaderMapping, NteAfterObxIsThatValuesComment) {
+    const auto out = read(message("20260302085410+0100",
+                                  "NTE|1|L|about the whole test\r"
+                                  "OBX|1|NM|F1^FEV1^99BRK||2.51|L|||||F\r"
+                                  "NTE|1|L|first on FEV1\r"
+                                  "NTE|2|L|second on FEV1\r"
+                                  "OBX|2|NM|FVC^FVC^99BRK||3.40|L|||||F\r"
+                                  "NTE|1|L|on FVC\r"
+                                  "OBX|3|NM|F1P^FEV1 pred^99BRK||2.92|L|||||F\r"
+                                  "NTE|1|L|after the prediction\r"
+                                  "OBX|4|NM|XQ9^Mystery^99BRK||0.77|L/s|||||F\r"
+                                  "NTE|1|L|after an unmapped code\r"
+                                  "OBX|5|NM|FVC^FVC^99BRK||3.50|L|||||W\r"
+                                  "NTE|1|L|after a withdrawn value\r"
+                                  "OBX|6|NM|HT^Height^99BRK||164|cm|||||F\r"
+                                  "NTE|1|L|after the height\r"
+                                  "OBX|7|NM|VIN^VI^99BRK|2|3.9|L|||||F\r"
+                                  "NTE|1|L|on maneuver 2\r"),
+                          spiroline_profile());
+    ASSERT_EQ(out.messages.size(), 1u);
+    ASSERT_TRUE(out.messages[0].result);
+    const NeutralResult& r = *out.messages[0].result;
+    const pftgw::Test* spiro = r.find_test(TestType::spirometry);
+    const pftgw::Test* dlco = r.find_test(TestType::diffusing_capacity);
+    ASSERT_NE(spiro, nullptr);
+    ASSERT_NE(dlco, nullptr);
+    ASSERT_NE(spiro->find("FEV1"), nullptr);
+    ASSERT_NE(spiro->find("FVC"), nullptr);
+    EXPECT_EQ(spiro->find("FEV1")->comments,
+              (std::vector<std::string>{"first on FEV1", "second on FEV1"}));
+    EXPECT_EQ(spiro->find("FVC")->comments, std::vector<std::string>{"on FVC"});
+    EXPECT_EQ(spiro->comments,
+              (std::vector<std::string>{"about the whole test", "after the prediction",
+                                        "after an unmapped code", "after a withdrawn value",
+                                        "after the height"}));
+    ASSERT_EQ(dlco->trials.size(), 1u);
+    ASSERT_EQ(dlco->trials[0].values.size(), 1u);
+    EXPECT_EQ(dlco->trials[0].values[0].comments, std::vector<std::string>{"on maneuver 2"});
+    EXPECT_TRUE(dlco->comments.empty());
+    ASSERT_TRUE(r.subject.height);
+    EXPECT_TRUE(r.subject.height->comments.empty());
+}
+
 // OBX-11 table 0085: C makes the result a correction; P preliminary; X absent;
 // W withdrawn and reported.
 TEST(OruReaderMapping, ObxStatusGivesResultStatus) {

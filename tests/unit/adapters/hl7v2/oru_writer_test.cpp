@@ -6,6 +6,7 @@
 
 #include <gtest/gtest.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <ctime>
@@ -456,6 +457,54 @@ TEST(OruWriter, TextIsEscapedInTheMessage) {
     EXPECT_NE(warn, std::string::npos);
     EXPECT_GT(warn, kco_pos);
     EXPECT_LT(warn, m.find("OBX|", kco_pos + 1));
+}
+
+// HL7 v2.5.1 ch. 7 (from memory): an NTE right after an OBX is a comment on
+// that observation. NTE-1 set id from 1 under each OBX, NTE-2 table 0105 "L"
+// (from memory), as the writer's other lab notes.
+TEST(OruWriter, ValueCommentsAreNtesRightAfterTheirObx) {
+    auto r = pftgw::testing::example_normalized_result();
+    Quantity* fev1 = r.tests[0].find("FEV1");
+    ASSERT_NE(fev1, nullptr);
+    fev1->comments = {"leak suspected", "pipe | in it"};
+    Quantity* fef75 = r.tests[0].find("FEF75");
+    ASSERT_NE(fef75, nullptr);
+    fef75->value.reset();
+    fef75->absent_reason = "not-measured";
+    fef75->comments = {"stopped early"};
+    const auto msg = parse_message(write(r));
+    std::size_t at = msg.size();
+    for (std::size_t i = 0; i < msg.size(); ++i)
+        if (msg[i].id == "OBX" && msg[i].component(3, 1) == "20150-9" && msg[i].field(4).empty())
+            at = i;
+    ASSERT_LT(at + 2, msg.size());
+    EXPECT_EQ(msg[at + 1].id, "NTE");
+    EXPECT_EQ(msg[at + 1].field(1), "1");
+    EXPECT_EQ(msg[at + 1].field(2), "L");
+    EXPECT_EQ(msg[at + 1].field(3), "leak suspected");
+    EXPECT_EQ(msg[at + 2].id, "NTE");
+    EXPECT_EQ(msg[at + 2].field(1), "2");
+    EXPECT_EQ(msg[at + 2].field(3), "pipe \\F\\ in it");
+    // Only under their own OBX: the text appears once in the message.
+    int seen = 0;
+    for (const auto& s : msg)
+        if (s.id == "NTE" && s.field(3) == "leak suspected") ++seen;
+    EXPECT_EQ(seen, 1);
+    // An absent value: its comment first, then the writer's "Not reported" note.
+    std::size_t fef = msg.size();
+    for (std::size_t i = 0; i < msg.size(); ++i)
+        if (msg[i].id == "OBX" && msg[i].field(11) == "X") fef = i;
+    ASSERT_LT(fef + 2, msg.size());
+    EXPECT_EQ(msg[fef + 1].field(3), "stopped early");
+    EXPECT_EQ(msg[fef + 2].field(3).rfind("Not reported: not-measured", 0), 0u);
+    // The test's own comment stays under the OBR, before any OBX.
+    const auto obr =
+        std::find_if(msg.begin(), msg.end(), [](const Segment& s) { return s.id == "OBR"; });
+    ASSERT_NE(obr, msg.end());
+    bool test_comment = false;
+    for (auto it = obr + 1; it != msg.end() && it->id == "NTE"; ++it)
+        if (it->field(3).find("Good effort") != std::string::npos) test_comment = true;
+    EXPECT_TRUE(test_comment);
 }
 
 TEST(OruWriter, InfoFindingsStayOutUnplacedFindingsTravel) {

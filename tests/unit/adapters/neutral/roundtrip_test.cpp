@@ -199,5 +199,70 @@ TEST(NeutralRoundTrip, ExamplesXmlAndJsonSayTheSame) {
     }
 }
 
+TEST(NeutralRoundTrip, ValueCommentsTravelWithTheValue) {
+    NeutralResult r = testing::example_normalized_result();
+    Quantity& fev1 = r.tests[0].values[0];
+    fev1.comments = {"Leak suspected on this maneuver", "second <note> & \"quotes\""};
+    Trial t;
+    t.number = 1;
+    t.values.push_back(testing::q("FVC", 3.1, "L", GasCondition::btps));
+    t.values.back().comments.push_back("cough at 0.8 s");
+    r.tests[0].trials.push_back(t);
+    r.tests[0].comments = {"whole test"};
+
+    std::string xml, json;
+    write_xml(r, xml);
+    write_json(r, json);
+    // The comment is a child of its <value>, not of the <test>.
+    const auto value_at = xml.find("<value kind=\"FEV1\"");
+    const auto value_end = xml.find("</value>", value_at);
+    const auto comment_at = xml.find("<comment>Leak suspected on this maneuver</comment>");
+    ASSERT_NE(comment_at, std::string::npos) << xml;
+    EXPECT_GT(comment_at, value_at);
+    EXPECT_LT(comment_at, value_end) << xml;
+    EXPECT_NE(json.find("\"comments\""), json.rfind("\"comments\"")) << "value and test: " << json;
+
+    for (const ReadOutcome& o : {read_xml(xml, "c.xml"), read_json(json, "c.json")}) {
+        ASSERT_TRUE(o.result) << errors_of(o);
+        EXPECT_TRUE(o.findings.empty()) << errors_of(o);
+        EXPECT_EQ(*o.result, r);
+        const pftgw::Test& test = o.result->tests.at(0);
+        EXPECT_EQ(test.values.at(0).comments, fev1.comments);
+        EXPECT_EQ(test.trials.back().values.at(0).comments,
+                  std::vector<std::string>{"cough at 0.8 s"});
+        EXPECT_EQ(test.comments, std::vector<std::string>{"whole test"});
+    }
+}
+
+TEST(NeutralRoundTrip, ValueCommentsAreModelEquality) {
+    Quantity a = testing::q("FEV1", 2.5, "L", GasCondition::btps);
+    Quantity b = a;
+    b.comments.push_back("x");
+    EXPECT_NE(a, b);
+}
+
+TEST(NeutralRoundTrip, OlderMinorVersionsStillRead) {
+    // schemas/README.md: a minor version only adds optional content, so 1.0 and
+    // 1.1 documents read as before and keep their version.
+    for (const char* version : {"1.0", "1.1"}) {
+        SCOPED_TRACE(version);
+        const std::string xml =
+            std::string(R"(<result xmlns="https://pftgw.example/ns/result" schemaVersion=")") +
+            version +
+            R"("><test type="spirometry"><value kind="FEV1" value="2.5" unit="L" condition="BTPS"/>)"
+            R"(<comment>test</comment></test></result>)";
+        const ReadOutcome o = read_xml(xml, "old.xml");
+        ASSERT_TRUE(o.result) << errors_of(o);
+        EXPECT_TRUE(o.findings.empty()) << errors_of(o);
+        EXPECT_EQ(o.result->schema_version, version);
+        EXPECT_TRUE(o.result->tests.at(0).values.at(0).comments.empty());
+        EXPECT_EQ(o.result->tests.at(0).comments, std::vector<std::string>{"test"});
+        std::string again;
+        write_xml(*o.result, again);
+        EXPECT_NE(again.find(std::string("schemaVersion=\"") + version + "\""), std::string::npos);
+    }
+    // A result made by a reader of another format says the version the writers follow.
+    EXPECT_EQ(NeutralResult{}.schema_version, "1." + std::to_string(kSchemaMinor));
+}
 }  // namespace
 }  // namespace pftgw::neutral

@@ -6,6 +6,7 @@
 // first special byte before any byte-wise work.
 #include "adapters/hl7v2/oru_writer.hpp"
 
+#include <algorithm>
 #include <array>
 #include <charconv>
 #include <cmath>
@@ -22,6 +23,31 @@
 
 namespace pftgw::hl7v2 {
 namespace {
+
+// A finding's value as a person reads it in an NTE: a decimal number with
+// more digits than a display needs (a computed ratio, 0.9703703704) at 4
+// significant digits, trailing zeros dropped; any other text as it is. The
+// finding itself keeps every digit (neutral output, pftgw check --format json).
+constexpr int kNoteSignificantDigits = 4;
+constexpr std::size_t kNoteNumberChars = 7;  // "12.3456" and shorter stay as they are
+std::string readable_value(std::string_view text) {
+    if (text.size() <= kNoteNumberChars || text.find('.') == std::string_view::npos)
+        return std::string(text);
+    double v = 0;
+    const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), v);
+    if (ec != std::errc() || end != text.data() + text.size() || !std::isfinite(v) || v == 0)
+        return std::string(text);
+    const int magnitude = static_cast<int>(std::floor(std::log10(std::fabs(v))));
+    const int decimals = std::max(0, kNoteSignificantDigits - 1 - magnitude);
+    char buf[64];
+    const auto r = std::to_chars(buf, buf + sizeof buf, v, std::chars_format::fixed, decimals);
+    std::string out(buf, r.ptr);
+    if (out.find('.') != std::string::npos) {
+        while (out.back() == '0') out.pop_back();
+        if (out.back() == '.') out.pop_back();
+    }
+    return out;
+}
 
 constexpr char kSegmentEnd = '\r';  // HL7 2.5.1 ch. 2: segments end in CR
 
@@ -838,7 +864,7 @@ private:
                     if (v) out_.put("; ");
                     out_.text(f.values[v].first);
                     out_.put('=');
-                    out_.text(f.values[v].second);
+                    out_.text(readable_value(f.values[v].second));
                 }
                 out_.put(')');
             }

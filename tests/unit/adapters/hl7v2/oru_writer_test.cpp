@@ -459,6 +459,27 @@ TEST(OruWriter, TextIsEscapedInTheMessage) {
     EXPECT_LT(warn, m.find("OBX|", kco_pos + 1));
 }
 
+// The NTE is for a person: a computed ratio's ten digits are cut to four
+// significant ones there; short numbers and other text are written as they are.
+TEST(OruWriter, FindingValuesInNotesAreReadable) {
+    auto r = pftgw::testing::example_normalized_result();
+    r.findings.push_back(Finding{"consistency.kco",
+                                 Severity::warning,
+                                 "tests[2].values[KCO]",
+                                 "a note",
+                                 {{"VI_VC", "0.9703703704"},
+                                  {"spread_L", "0.1"},
+                                  {"DLCO.recomputed", "24.98765432"},
+                                  {"sum", "1234.56789"},
+                                  {"tiny", "0.000123456"},
+                                  {"time", "2026-03-02T08:54:10+01:00"}}});
+    const std::string m = write(r);
+    EXPECT_NE(m.find("(VI_VC=0.9704; spread_L=0.1; DLCO.recomputed=24.99; sum=1235; "
+                     "tiny=0.0001235; time=2026-03-02T08:54:10+01:00)\r"),
+              std::string::npos)
+        << m;
+}
+
 // HL7 v2.5.1 ch. 7 (from memory): an NTE right after an OBX is a comment on
 // that observation. NTE-1 set id from 1 under each OBX, NTE-2 table 0105 "L"
 // (from memory), as the writer's other lab notes.

@@ -37,84 +37,117 @@ nlohmann::json finding_json(const Finding& f) {
             {"values", values}};
 }
 
-void print_text(const std::vector<Processed>& all, const RunCounts& c) {
-    for (const auto& p : all) {
-        const char* outcome = !p.result                  ? "unreadable"
-                              : p.blocked()              ? "error"
-                              : has_warnings(p.findings) ? "warnings"
-                                                         : "ok";
-        print_findings_text(stdout, p, outcome);
-    }
-    fmt::print("\nchecked {}  without errors {}  with errors {}  unreadable {}\n", c.read,
-               c.read - c.blocked - c.unreadable, c.blocked, c.unreadable);
-    fmt::print(
-        "severities: error blocks delivery; warning travels with the result; info is shown here "
-        "only\n");
-    fmt::print("{}\n", kCaution);
+const char* outcome_of(const Processed& p) {
+    return !p.result                  ? "unreadable"
+           : p.blocked()              ? "error"
+           : has_warnings(p.findings) ? "warnings"
+                                      : "ok";
 }
 
-void print_json(const std::vector<Processed>& all, const RunCounts& c) {
-    nlohmann::json results = nlohmann::json::array();
-    for (const auto& p : all) {
+// Text and JSON are printed result by result, as they are checked: memory
+// does not grow with an archive. JUnit's counts come before its testcases, so
+// the testcases are kept as rendered text until the end (about a kilobyte a
+// result).
+class Report {
+public:
+    explicit Report(std::string format) : format_(std::move(format)) {
+        if (format_ == "json") fmt::print("{{\n  \"results\": [");
+    }
+
+    void add(Processed&& p) {
+        if (format_ == "text") {
+            print_findings_text(stdout, p, outcome_of(p));
+        } else if (format_ == "json") {
+            print_json(p);
+        } else {
+            add_junit(p);
+        }
+    }
+
+    void finish(const RunCounts& c) {
+        if (format_ == "json") {
+            const nlohmann::json tail = {{"checked", c.read},
+                                         {"withErrors", c.blocked},
+                                         {"unreadable", c.unreadable},
+                                         {"caution", kCaution}};
+            fmt::print("{}\n  ],\n", first_ ? "" : "\n");
+            const std::string body = tail.dump(2);  // "{\n  ...\n}": its members only
+            fmt::print("{}\n", std::string_view(body).substr(2));
+        } else if (format_ == "junit") {
+            print_junit(c);
+        } else {
+            fmt::print("\nchecked {}  without errors {}  with errors {}  unreadable {}\n", c.read,
+                       c.read - c.blocked - c.unreadable, c.blocked, c.unreadable);
+            fmt::print(
+                "severities: error blocks delivery; warning travels with the result; info is "
+                "shown here only\n");
+            fmt::print("{}\n", kCaution);
+        }
+    }
+
+private:
+    void print_json(const Processed& p) {
         nlohmann::json findings = nlohmann::json::array();
         for (const auto& f : p.findings) findings.push_back(finding_json(f));
-        results.push_back({{"source", p.source},
-                           {"id", p.result ? p.result->id : ""},
-                           {"readable", p.result.has_value()},
-                           {"errors", count_severity(p.findings, Severity::error)},
-                           {"warnings", count_severity(p.findings, Severity::warning)},
-                           {"findings", findings}});
+        const nlohmann::json r = {{"source", p.source},
+                                  {"id", p.result ? p.result->id : ""},
+                                  {"readable", p.result.has_value()},
+                                  {"errors", count_severity(p.findings, Severity::error)},
+                                  {"warnings", count_severity(p.findings, Severity::warning)},
+                                  {"findings", findings}};
+        // Indented as one element of the results array.
+        std::string text = r.dump(2);
+        std::string indented = "\n    ";
+        for (const char ch : text) {
+            indented += ch;
+            if (ch == '\n') indented += "    ";
+        }
+        fmt::print("{}{}", first_ ? "" : ",", indented);
+        first_ = false;
     }
-    nlohmann::json doc = {{"checked", c.read},
-                          {"withErrors", c.blocked},
-                          {"unreadable", c.unreadable},
-                          {"results", results},
-                          {"caution", kCaution}};
-    fmt::print("{}\n", doc.dump(2));
-}
+
+    void add_junit(const Processed& p);
+    void print_junit(const RunCounts& c) const;
+
+    std::string format_;
+    bool first_ = true;
+    std::ostringstream junit_cases_;  // rendered testcases: the counts go before them
+    std::size_t junit_failures_ = 0;
+};
 
 // JUnit XML in the common Ant/Surefire form: one testcase per result, a
 // <failure> per error finding, <error> for an unreadable input, warnings in <system-out>.
-void print_junit(const std::vector<Processed>& all, const RunCounts& c) {
-    pugi::xml_document doc;
-    auto decl = doc.append_child(pugi::node_declaration);
-    decl.append_attribute("version") = "1.0";
-    decl.append_attribute("encoding") = "UTF-8";
-    auto suites = doc.append_child("testsuites");
-    suites.append_attribute("name") = "pftgw check";
-    auto suite = suites.append_child("testsuite");
-    suite.append_attribute("name") = "pftgw check";
-    std::size_t failures = 0;
-    for (const auto& p : all) {
-        auto tc = suite.append_child("testcase");
-        tc.append_attribute("classname") = p.source.c_str();
-        tc.append_attribute("name") = (p.result ? p.result->id : p.source).c_str();
-        tc.append_attribute("time") = "0";
-        std::string warnings;
-        for (const auto& f : p.findings) {
-            const std::string line = f.rule + " at " + f.path + ": " + f.message;
-            if (f.severity == Severity::error) {
-                auto el = tc.append_child(p.result ? "failure" : "error");
-                el.append_attribute("message") = line.c_str();
-                el.append_attribute("type") = f.rule.c_str();
-                el.text() = line.c_str();
-            } else {
-                warnings += std::string(to_string(f.severity)) + " " + line + "\n";
-            }
+void Report::add_junit(const Processed& p) {
+    pugi::xml_document scratch;
+    auto tc = scratch.append_child("testcase");
+    tc.append_attribute("classname") = p.source.c_str();
+    tc.append_attribute("name") = (p.result ? p.result->id : p.source).c_str();
+    tc.append_attribute("time") = "0";
+    std::string warnings;
+    for (const auto& f : p.findings) {
+        const std::string line = f.rule + " at " + f.path + ": " + f.message;
+        if (f.severity == Severity::error) {
+            auto el = tc.append_child(p.result ? "failure" : "error");
+            el.append_attribute("message") = line.c_str();
+            el.append_attribute("type") = f.rule.c_str();
+            el.text() = line.c_str();
+        } else {
+            warnings += std::string(to_string(f.severity)) + " " + line + "\n";
         }
-        if (p.result && has_errors(p.findings)) ++failures;
-        if (!warnings.empty()) tc.append_child("system-out").text() = warnings.c_str();
     }
-    for (auto node : {suites, suite}) {
-        node.append_attribute("tests") = static_cast<unsigned long long>(c.read);
-        node.append_attribute("failures") = static_cast<unsigned long long>(failures);
-        node.append_attribute("errors") = static_cast<unsigned long long>(c.unreadable);
-    }
-    suite.append_attribute("skipped") = 0;
-    suite.append_attribute("time") = "0";
-    std::ostringstream ss;
-    doc.save(ss, "  ");
-    fmt::print("{}", ss.str());
+    if (p.result && has_errors(p.findings)) ++junit_failures_;
+    if (!warnings.empty()) tc.append_child("system-out").text() = warnings.c_str();
+    tc.print(junit_cases_, "  ", pugi::format_default, pugi::encoding_utf8, 2);
+}
+
+void Report::print_junit(const RunCounts& c) const {
+    const auto counts = fmt::format(R"(tests="{}" failures="{}" errors="{}")", c.read,
+                                    junit_failures_, c.unreadable);
+    fmt::print("<?xml version=\"1.0\" encoding=\"UTF-8\"?>\n");
+    fmt::print("<testsuites name=\"pftgw check\" {}>\n", counts);
+    fmt::print("  <testsuite name=\"pftgw check\" {} skipped=\"0\" time=\"0\">\n", counts);
+    fmt::print("{}", junit_cases_.str());
+    fmt::print("  </testsuite>\n</testsuites>\n");
 }
 
 int run_check(const CheckOptions& o) {
@@ -144,14 +177,14 @@ int run_check(const CheckOptions& o) {
     std::optional<DeviceProfile> profile;
     if (!make_input_context(o.input, input, profile, "check")) return kExitUsage;
     const auto files = find_inputs(o.inputs, input.from, missing);
-    std::vector<Processed> all;
+    Report report(o.format);
     RunCounts counts;
     auto unreadable = [&](std::string source, std::string message) {
         Processed p;
         p.source = std::move(source);
         p.findings.push_back(
             Finding{"read.unreadable", Severity::error, "", std::move(message), {}});
-        all.push_back(std::move(p));
+        report.add(std::move(p));
         ++counts.read;
         ++counts.unreadable;
     };
@@ -167,17 +200,12 @@ int run_check(const CheckOptions& o) {
                     ++counts.unreadable;
                 else if (p.blocked())
                     ++counts.blocked;
-                all.push_back(std::move(p));
+                report.add(std::move(p));
             },
             error);
         if (!ok) unreadable(file, error);
     }
-    if (o.format == "json")
-        print_json(all, counts);
-    else if (o.format == "junit")
-        print_junit(all, counts);
-    else
-        print_text(all, counts);
+    report.finish(counts);
     return exit_code_for(counts);
 }
 

@@ -1,6 +1,7 @@
 // HL7 v2 ORU^R01 reader: messages of a file into neutral results as received.
 #include "adapters/hl7v2/oru_reader.hpp"
 
+#include <algorithm>
 #include <array>
 #include <charconv>
 #include <cstdlib>
@@ -821,68 +822,121 @@ std::optional<Hl7Location> ReadMessage::locate(const Finding& f) const {
     return l;
 }
 
-Hl7Split split_hl7(std::string_view bytes) {
-    Hl7Split out;
-    const std::vector<Line> lines = split_lines(bytes);
-    std::size_t group_begin = 0;
-    const Line* group_last = nullptr;
-    int batch_messages = 0;
-    bool in_batch = false;
-    const auto end_of = [&](const Line& l) {
-        std::size_t e = l.offset + l.text.size();
-        // The message's bytes include its last segment end (CR, LF or CRLF).
-        if (e < bytes.size() && bytes[e] == '\r') ++e;
-        if (e < bytes.size() && bytes[e] == '\n') ++e;
-        return e;
-    };
-    const auto flush = [&]() {
-        if (!group_last) return;
-        out.messages.push_back({group_begin, end_of(*group_last)});
-        ++batch_messages;
-        group_last = nullptr;
-    };
-    for (const auto& line : lines) {
-        const std::string_view id = segment_id(line.text);
-        if (id == "MSH") {
-            flush();
-            group_begin = line.offset;
-            group_last = &line;
-        } else if (is_batch_segment(id)) {
-            flush();
-            if (id == "BHS") {
-                in_batch = true;
-                batch_messages = 0;
-            } else if (id == "BTS") {
-                // BTS-1 batch message count, when sent.
-                const char sep = line.text.size() > 3 ? line.text[3] : '|';
-                const std::string_view rest =
-                    line.text.substr(std::min<std::size_t>(4, line.text.size()));
-                const std::string count(rest.substr(0, rest.find(sep)));
-                if (!count.empty() && (!in_batch || std::atoi(count.c_str()) != batch_messages)) {
-                    Finding f;
-                    f.rule = std::string(kRuleBatchCount);
-                    f.severity = Severity::warning;
-                    f.path = "BTS";
-                    f.message = "BTS-1 says " + count + " messages; the batch holds " +
-                                std::to_string(batch_messages);
-                    f.values = {{"count", count}, {"read", std::to_string(batch_messages)}};
-                    out.findings.push_back(std::move(f));
-                }
-                in_batch = false;
+void Hl7Splitter::feed(std::string_view bytes, const MessageFn& fn) {
+    buf_.append(bytes);
+    lines(false, fn);
+}
+
+void Hl7Splitter::finish(const MessageFn& fn) {
+    lines(true, fn);
+    flush(fn);
+    buf_.clear();
+    base_ += scan_;
+    scan_ = 0;
+}
+
+// Every complete line of buf_ (at the end: the rest too), then buf_ is cut to
+// what a message still open needs.
+void Hl7Splitter::lines(bool at_end, const MessageFn& fn) {
+    // The next CR and the next LF, each searched again only once passed (memchr).
+    std::size_t cr = buf_.find('\r', scan_);
+    std::size_t lf = buf_.find('\n', scan_);
+    for (;;) {
+        if (cr != std::string::npos && cr < scan_) cr = buf_.find('\r', scan_);
+        if (lf != std::string::npos && lf < scan_) lf = buf_.find('\n', scan_);
+        const std::size_t e = std::min(cr, lf);
+        if (e == std::string::npos) {
+            if (at_end && scan_ < buf_.size()) {
+                line(scan_, buf_.size(), false, fn);
+                scan_ = buf_.size();
             }
-        } else if (group_last) {
-            group_last = &line;
-        } else {
-            Finding f;
-            f.rule = std::string(kRuleStraySegment);
-            f.severity = Severity::warning;
-            f.path = "byte " + std::to_string(line.offset);
-            f.message = "segment '" + std::string(id) + "' outside any message; not read";
-            f.values = {{"segment", std::string(line.text.substr(0, 64))}};
-            out.findings.push_back(std::move(f));
+            break;
+        }
+        line(scan_, e, true, fn);
+        scan_ = e + 1;
+    }
+    const std::size_t keep = in_message_ ? msg_begin_ : scan_;
+    if (keep > 0) {
+        buf_.erase(0, keep);
+        base_ += keep;
+        scan_ -= keep;
+        if (in_message_) {
+            msg_end_ -= keep;
+            msg_begin_ = 0;
         }
     }
-    flush();
+}
+
+// One line buf_[b, e), ended by buf_[e] when `terminated` (split_lines' rules).
+void Hl7Splitter::line(std::size_t b, std::size_t e, bool terminated, const MessageFn& fn) {
+    const std::size_t end_with_terminator = terminated ? e + 1 : e;
+    std::size_t start = b;
+    while (start < e && (buf_[start] == '\x0b' || buf_[start] == '\x1c')) ++start;
+    if (start == e) {
+        // An empty line: the LF of a CRLF belongs to the segment before it.
+        if (in_message_ && msg_end_ == b && b > 0 && buf_[b - 1] == '\r' && terminated &&
+            buf_[e] == '\n' && b == e)
+            msg_end_ = end_with_terminator;
+        return;
+    }
+    const std::string_view text(buf_.data() + start, e - start);
+    const std::string_view id = segment_id(text);
+    if (id == "MSH") {
+        flush(fn);
+        in_message_ = true;
+        msg_begin_ = start;
+        msg_end_ = end_with_terminator;
+    } else if (is_batch_segment(id)) {
+        flush(fn);
+        if (id == "BHS") {
+            in_batch_ = true;
+            batch_messages_ = 0;
+        } else if (id == "BTS") {
+            // BTS-1 batch message count, when sent.
+            const char sep = text.size() > 3 ? text[3] : '|';
+            const std::string_view rest = text.substr(std::min<std::size_t>(4, text.size()));
+            const std::string count(rest.substr(0, rest.find(sep)));
+            if (!count.empty() && (!in_batch_ || std::atoi(count.c_str()) != batch_messages_)) {
+                Finding f;
+                f.rule = std::string(kRuleBatchCount);
+                f.severity = Severity::warning;
+                f.path = "BTS";
+                f.message = "BTS-1 says " + count + " messages; the batch holds " +
+                            std::to_string(batch_messages_);
+                f.values = {{"count", count}, {"read", std::to_string(batch_messages_)}};
+                findings_.push_back(std::move(f));
+            }
+            in_batch_ = false;
+        }
+    } else if (in_message_) {
+        msg_end_ = end_with_terminator;
+    } else {
+        Finding f;
+        f.rule = std::string(kRuleStraySegment);
+        f.severity = Severity::warning;
+        f.path = "byte " + std::to_string(base_ + start);
+        f.message = "segment '" + std::string(id) + "' outside any message; not read";
+        f.values = {{"segment", std::string(text.substr(0, 64))}};
+        findings_.push_back(std::move(f));
+    }
+}
+
+void Hl7Splitter::flush(const MessageFn& fn) {
+    if (!in_message_) return;
+    in_message_ = false;
+    ++batch_messages_;
+    fn(buf_.substr(msg_begin_, msg_end_ - msg_begin_), base_ + msg_begin_);
+}
+
+Hl7Split split_hl7(std::string_view bytes) {
+    Hl7Split out;
+    Hl7Splitter splitter;
+    const Hl7Splitter::MessageFn fn = [&](std::string&& message, std::size_t offset) {
+        out.messages.push_back({offset, offset + message.size()});
+    };
+    splitter.feed(bytes, fn);
+    splitter.finish(fn);
+    out.findings = splitter.take_findings();
     return out;
 }
 

@@ -43,9 +43,11 @@
 // are "time.no-offset" errors and left out.
 #pragma once
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
 #include <vector>
 
 #include "adapters/hl7v2/hl7_parser.hpp"
@@ -114,6 +116,34 @@ struct Hl7Split {
     std::vector<Finding> findings;  // about the file, as Hl7ReadOutcome::findings
 };
 Hl7Split split_hl7(std::string_view bytes);
+
+// split_hl7() for a stream: bytes are fed in pieces of any size, and each
+// message is handed over, with its own bytes and where they start in the
+// stream, as soon as the segment after it (or the end) shows it complete.
+// Memory holds one message and one segment, whatever the stream's length.
+// File findings (stray segments, batch counts) collect in findings() as they
+// are found; take_findings() hands over those found so far.
+class Hl7Splitter {
+public:
+    using MessageFn = std::function<void(std::string&& bytes, std::size_t offset)>;
+    void feed(std::string_view bytes, const MessageFn& fn);
+    void finish(const MessageFn& fn);  // the end of the stream
+    std::vector<Finding> take_findings() { return std::exchange(findings_, {}); }
+
+private:
+    void lines(bool at_end, const MessageFn& fn);
+    void line(std::size_t b, std::size_t e, bool terminated, const MessageFn& fn);
+    void flush(const MessageFn& fn);
+    std::string buf_;       // from the current message's start (or the current line's)
+    std::size_t base_ = 0;  // stream offset of buf_[0]
+    std::size_t scan_ = 0;  // buf_ index where the next line starts
+    bool in_message_ = false;
+    std::size_t msg_begin_ = 0;  // buf_ indexes: the message so far, segment ends included
+    std::size_t msg_end_ = 0;
+    int batch_messages_ = 0;
+    bool in_batch_ = false;
+    std::vector<Finding> findings_;
+};
 // Reads the one message at bytes[begin, end) (a range split_hl7 gave).
 ReadMessage read_hl7_message(std::string_view bytes, std::size_t begin, std::size_t end,
                              const Hl7ReadOptions& options);

@@ -22,7 +22,8 @@ namespace fs = std::filesystem;
 namespace pftgw::cli {
 namespace {
 
-constexpr std::size_t kCsvChunkBytes = 64 * 1024;  // memory does not grow with the file
+constexpr std::size_t kCsvChunkBytes = 64 * 1024;    // memory does not grow with the file
+constexpr std::size_t kReadChunkBytes = 256 * 1024;  // HL7 files: read in pieces this size
 
 bool read_fd(int fd, const std::string& name, std::string& out, std::string& error) {
     // One read into a buffer of the file's size when it has one: no stream
@@ -140,24 +141,55 @@ void emit_all(std::vector<ReadItem>&& items, std::vector<Finding>&& file_finding
     for (auto& item : items) fn(std::move(item));
 }
 
-// Splits only: each message goes on as bytes, read later by finish_reading().
-void read_hl7_file(std::string&& bytes, const std::string& source,
-                   const std::function<void(ReadItem&&)>& fn) {
-    hl7v2::Hl7Split split = hl7v2::split_hl7(bytes);
-    std::vector<ReadItem> items;
-    items.reserve(split.messages.size());
-    for (std::size_t i = 0; i < split.messages.size(); ++i) {
-        const auto& m = split.messages[i];
-        ReadItem item;
-        item.source = source + "#" + std::to_string(i + 1);
-        item.format = InputFormat::hl7v2;
-        if (split.messages.size() == 1 && m.begin == 0 && m.end == bytes.size())
-            item.bytes = std::move(bytes);
-        else
-            item.bytes.assign(bytes, m.begin, m.end - m.begin);
-        items.push_back(std::move(item));
+// Splits only, streaming: each message goes on as bytes, read later by
+// finish_reading(); memory holds a message or two, whatever the file's size.
+// File findings travel with the message read after them (stray segments
+// before the first one with the first), or, at the end, with the last; a
+// file with no message gives one item of its findings.
+bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& fn,
+                   std::string& error) {
+    const std::string source = source_name(file);
+    const int fd = is_stdin(file) ? STDIN_FILENO : ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
+    if (fd < 0) {
+        error = "cannot open " + source + ": " + std::strerror(errno);
+        return false;
     }
-    emit_all(std::move(items), std::move(split.findings), source, fn);
+    hl7v2::Hl7Splitter splitter;
+    std::optional<ReadItem> held;  // the last message, until the next one or the end
+    std::size_t count = 0;
+    const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string&& bytes, std::size_t) {
+        if (held) fn(std::move(*held));
+        held.emplace();
+        held->source = source + "#" + std::to_string(++count);
+        held->format = InputFormat::hl7v2;
+        held->bytes = std::move(bytes);
+        held->findings = splitter.take_findings();
+    };
+    static thread_local std::string chunk(kReadChunkBytes, '\0');  // filled once, not per file
+    bool ok = true;
+    for (;;) {
+        const ssize_t n = ::read(fd, chunk.data(), chunk.size());
+        if (n < 0 && errno == EINTR) continue;
+        if (n < 0) {
+            error = "cannot read " + source + ": " + std::strerror(errno);
+            ok = false;
+            break;
+        }
+        if (n == 0) break;
+        splitter.feed(std::string_view(chunk.data(), static_cast<std::size_t>(n)), on_message);
+    }
+    if (!is_stdin(file)) ::close(fd);
+    if (!ok && !held) return false;  // nothing read: the file is unreadable
+    splitter.finish(on_message);
+    std::vector<Finding> rest = splitter.take_findings();
+    if (!ok) rest.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
+    if (held) {
+        held->findings.insert(held->findings.end(), rest.begin(), rest.end());
+        fn(std::move(*held));
+    } else {
+        emit_all({}, std::move(rest), source, fn);
+    }
+    return true;
 }
 
 void read_astm_file(const std::string& bytes, const std::string& source, const InputContext& c,
@@ -305,6 +337,7 @@ bool for_each_item(const fs::path& file, const InputContext& c,
         read_jsonl(in, source, std::nullopt, 0, fn);
         return true;
     }
+    if (c.from == InputFormat::hl7v2) return read_hl7_file(file, fn, error);
     std::string bytes;
     if (!read_whole(file, bytes, error)) return false;
     switch (c.from) {
@@ -316,8 +349,7 @@ bool for_each_item(const fs::path& file, const InputContext& c,
             return true;
         }
         case InputFormat::hl7v2:
-            read_hl7_file(std::move(bytes), source, fn);
-            return true;
+            break;  // streamed above
         case InputFormat::astm:
             read_astm_file(bytes, source, c, fn);
             return true;

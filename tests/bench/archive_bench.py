@@ -4,7 +4,8 @@
 1. HL7 v2 ORU (about 2.5 KB, 25 OBX each, invented) -> FHIR JSON through
    `pftgw convert --from hl7v2`, N messages, with 1 and 2 jobs: messages per
    second and peak RSS. These runs use --dry-run (DECISIONS.md: measure the
-   program, not the disk); one more run writes every file to disk and says so.
+   program, not the disk); one more run writes every file to disk and says so,
+   and one reads all the messages from a single batch file (peak RSS).
 2. A CSV archive (one row per session) -> neutral JSON at two sizes: peak RSS,
    to show that memory does not grow with the archive.
 
@@ -102,7 +103,20 @@ def main():
         print(f"  --jobs 2, writing every file to disk ({out}): {a.messages / secs:9.0f} messages/s  "
               f"peak RSS {rss:6.1f} MiB")
         shutil.rmtree(out, ignore_errors=True)
+        # The same messages as one batch file (FHS/BHS ... BTS/FTS): read in
+        # pieces, so memory does not grow with the file.
+        batch = os.path.join(work, "batch.hl7")
+        with open(batch, "w") as f:
+            f.write("FHS|^~\\&|BOX25|BENCH1\rBHS|^~\\&|BOX25|BENCH1\r")
+            for name in sorted(os.listdir(hl7_dir)):
+                with open(os.path.join(hl7_dir, name)) as m:
+                    f.write(m.read())
+            f.write(f"BTS|{a.messages}\rFTS|1\r")
         shutil.rmtree(hl7_dir, ignore_errors=True)
+        secs, rss = run(base + ["--dry-run", "--jobs", "2", batch])
+        print(f"  one batch file of them ({os.path.getsize(batch) / 1e6:.0f} MB), --jobs 2: "
+              f"{a.messages / secs:9.0f} messages/s  peak RSS {rss:6.1f} MiB")
+        os.remove(batch)
 
         csv_profile = os.path.join(ROOT, "samples", "profiles", "aldercrest-flowquill-3.toml")
         for n in sorted(a.csv_rows):

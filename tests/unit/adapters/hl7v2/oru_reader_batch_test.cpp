@@ -111,5 +111,50 @@ TEST(OruReaderBatch, SplitThenReadEachGivesWhatReadHl7Gives) {
     EXPECT_EQ(*whole.messages[2].result->tests[0].values[0].value, 1.97);
 }
 
+// The streaming splitter (pftgw convert reads HL7 files in pieces): fed a
+// byte at a time or in pieces of any size, it hands over the same messages,
+// byte for byte, and the same file findings as split_hl7 on the whole file,
+// a CR and its LF in two pieces included.
+TEST(OruReaderBatch, StreamingSplitterMatchesTheWholeFileWhateverThePieces) {
+    std::string b = one("B2", "3.02");
+    for (std::size_t at = b.find('\r'); at != std::string::npos; at = b.find('\r', at + 2))
+        b.replace(at, 1, "\r\n");
+    const std::string file = "ZZZ|stray\r\n" + one("A1", "2.51") + "\x0b" + b + "\x1c\r" +
+                             "BHS|^~\\&\r" + one("C3", "1.97") + "BTS|2\rFTS|1";
+    const Hl7Split whole = split_hl7(file);
+    ASSERT_EQ(whole.messages.size(), 3u);
+    // Each message is exactly what was put in: MLLP bytes and batch segments are not.
+    const std::string expected[] = {one("A1", "2.51"), b, one("C3", "1.97")};
+    for (std::size_t i = 0; i < 3; ++i)
+        EXPECT_EQ(
+            file.substr(whole.messages[i].begin, whole.messages[i].end - whole.messages[i].begin),
+            expected[i]);
+    for (const std::size_t piece :
+         {std::size_t{1}, std::size_t{2}, std::size_t{7}, std::size_t{64}, file.size()}) {
+        Hl7Splitter splitter;
+        std::vector<std::pair<std::string, std::size_t>> got;
+        const Hl7Splitter::MessageFn fn = [&](std::string&& bytes, std::size_t offset) {
+            got.emplace_back(std::move(bytes), offset);
+        };
+        for (std::size_t at = 0; at < file.size(); at += piece)
+            splitter.feed(std::string_view(file).substr(at, piece), fn);
+        splitter.finish(fn);
+        const auto findings = splitter.take_findings();
+        ASSERT_EQ(got.size(), 3u) << "pieces of " << piece;
+        for (std::size_t i = 0; i < 3; ++i) {
+            const MessageRange r = whole.messages[i];
+            EXPECT_EQ(got[i].second, r.begin) << piece;
+            EXPECT_EQ(got[i].first, file.substr(r.begin, r.end - r.begin)) << piece << " #" << i;
+        }
+        ASSERT_EQ(findings.size(), whole.findings.size()) << piece;
+        for (std::size_t i = 0; i < findings.size(); ++i) {
+            EXPECT_EQ(findings[i].rule, whole.findings[i].rule);
+            EXPECT_EQ(findings[i].path, whole.findings[i].path);  // "byte 0" for the stray one
+        }
+    }
+    // The message after the CRLF one ends with "\r\n" though the LF came alone.
+    EXPECT_EQ(file.substr(whole.messages[1].end - 2, 2), "\r\n");
+}
+
 }  // namespace
 }  // namespace pftgw::hl7v2

@@ -39,6 +39,24 @@ echo "== the 2019 archive re-expressed with GLI: pftgw convert --to neutral-json
 grep -E '^read ' "$out/convert-gli.txt" | sed 's/^/   /'
 echo "   each FEV1 now carries the device's own predicted values and the gateway's GLI Global 2022 ones, each naming its equation set"
 
+profile=samples/profiles/aldercrest-flowquill-3.toml
+echo
+echo "== a device's own exports, read through its profile ($profile):"
+echo "   the same invented session as ASTM E1394 records, as HL7 v2.3 ORU from the device, and as a row of its CSV archive"
+for pair in astm:samples/exports/spx3-ilvesson-2026-03-20.astm hl7v2:samples/exports/spx3-ilvesson-2026-03-20.hl7 \
+            csv:samples/exports/spx3-archive-2026-03.csv; do
+  from=${pair%%:*}
+  file=${pair#*:}
+  echo "   pftgw convert --from $from --profile \$profile --to fhir-json --out out/demo/device-$from $file"
+  "$pftgw" convert --from "$from" --profile "$profile" --to fhir-json --out "$out/device-$from" "$file" \
+    > "$out/convert-device-$from.txt" 2>&1
+  grep -E '^read ' "$out/convert-device-$from.txt" | sed 's/^/     /'
+done
+echo "   check a raw export as a device maker would: pftgw check --from astm --profile $profile samples/exports/spx3-ilvesson-2026-03-20.astm"
+"$pftgw" check --from astm --profile "$profile" samples/exports/spx3-ilvesson-2026-03-20.astm > "$out/check-device-astm.txt"
+echo "     exit status $?; report: out/demo/check-device-astm.txt"
+head -n 1 "$out/check-device-astm.txt" | sed 's/^/     /'
+
 echo
 echo "== pftgw reference --set gli-2017 --quantity DLCO --units traditional --sex M --age 45 --height 178"
 "$pftgw" reference --set gli-2017 --quantity DLCO --units traditional --sex M --age 45 --height 178 | sed 's/^/   /'

@@ -5,6 +5,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <cctype>
 #include <cerrno>
 #include <cstring>
 #include <fstream>
@@ -23,7 +24,7 @@ namespace pftgw::cli {
 namespace {
 
 constexpr std::size_t kCsvChunkBytes = 64 * 1024;    // memory does not grow with the file
-constexpr std::size_t kReadChunkBytes = 256 * 1024;  // HL7 files: read in pieces this size
+constexpr std::size_t kReadChunkBytes = 256 * 1024;  // HL7 and ASTM files: read in pieces
 
 bool read_fd(int fd, const std::string& name, std::string& out, std::string& error) {
     // One read into a buffer of the file's size when it has one: no stream
@@ -141,30 +142,49 @@ void emit_all(std::vector<ReadItem>&& items, std::vector<Finding>&& file_finding
     for (auto& item : items) fn(std::move(item));
 }
 
-// Splits only, streaming: each message goes on as bytes, read later by
-// finish_reading(); memory holds a message or two, whatever the file's size.
-// File findings travel with the message read after them (stray segments
-// before the first one with the first), or, at the end, with the last; a
-// file with no message gives one item of its findings.
-bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& fn,
-                   std::string& error) {
+// Hands the items of one file on one behind, so that findings about the
+// file found after an item was read still travel with a result: each item
+// takes the findings found before it, the last one those found after it. A
+// file with no item gives one item of its findings (emit_all).
+class HeldItems {
+public:
+    HeldItems(std::string source, const std::function<void(ReadItem&&)>& fn)
+        : source_(std::move(source)), fn_(fn) {}
+    std::string next_source() { return source_ + "#" + std::to_string(++count_); }
+    void push(ReadItem&& item, std::vector<Finding>&& found_before) {
+        if (held_) fn_(std::move(*held_));
+        item.findings.insert(item.findings.begin(), found_before.begin(), found_before.end());
+        held_ = std::move(item);
+    }
+    void finish(std::vector<Finding>&& rest) {
+        if (!held_) {
+            emit_all({}, std::move(rest), source_, fn_);
+            return;
+        }
+        held_->findings.insert(held_->findings.end(), rest.begin(), rest.end());
+        fn_(std::move(*held_));
+        held_.reset();
+    }
+
+private:
+    std::string source_;
+    const std::function<void(ReadItem&&)>& fn_;
+    std::optional<ReadItem> held_;
+    std::size_t count_ = 0;
+};
+
+// Reads `file` (or standard input) in pieces, giving each to `piece`. False,
+// with `error`, when it cannot be opened or a read fails (`read_any` says
+// whether anything was read before that).
+bool read_pieces(const fs::path& file, const std::function<void(std::string_view)>& piece,
+                 std::string& error, bool* read_any) {
     const std::string source = source_name(file);
     const int fd = is_stdin(file) ? STDIN_FILENO : ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
+    if (read_any) *read_any = false;
     if (fd < 0) {
         error = "cannot open " + source + ": " + std::strerror(errno);
         return false;
     }
-    hl7v2::Hl7Splitter splitter;
-    std::optional<ReadItem> held;  // the last message, until the next one or the end
-    std::size_t count = 0;
-    const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string&& bytes, std::size_t) {
-        if (held) fn(std::move(*held));
-        held.emplace();
-        held->source = source + "#" + std::to_string(++count);
-        held->format = InputFormat::hl7v2;
-        held->bytes = std::move(bytes);
-        held->findings = splitter.take_findings();
-    };
     static thread_local std::string chunk(kReadChunkBytes, '\0');  // filled once, not per file
     bool ok = true;
     for (;;) {
@@ -176,74 +196,126 @@ bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& 
             break;
         }
         if (n == 0) break;
-        splitter.feed(std::string_view(chunk.data(), static_cast<std::size_t>(n)), on_message);
+        if (read_any) *read_any = true;
+        piece(std::string_view(chunk.data(), static_cast<std::size_t>(n)));
     }
     if (!is_stdin(file)) ::close(fd);
-    if (!ok && !held) return false;  // nothing read: the file is unreadable
+    return ok;
+}
+
+// HL7: splits only, streaming. Each message goes on as bytes, read later by
+// finish_reading(); memory holds a message or two, whatever the file's size.
+bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& fn,
+                   std::string& error) {
+    hl7v2::Hl7Splitter splitter;
+    HeldItems items(source_name(file), fn);
+    const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string&& bytes, std::size_t) {
+        ReadItem item;
+        item.source = items.next_source();
+        item.format = InputFormat::hl7v2;
+        item.bytes = std::move(bytes);
+        items.push(std::move(item), splitter.take_findings());
+    };
+    bool read_any = false;
+    const bool ok = read_pieces(
+        file, [&](std::string_view piece) { splitter.feed(piece, on_message); }, error, &read_any);
+    if (!ok && !read_any) return false;  // nothing read: the file is unreadable
     splitter.finish(on_message);
     std::vector<Finding> rest = splitter.take_findings();
     if (!ok) rest.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
-    if (held) {
-        held->findings.insert(held->findings.end(), rest.begin(), rest.end());
-        fn(std::move(*held));
-    } else {
-        emit_all({}, std::move(rest), source, fn);
-    }
+    items.finish(std::move(rest));
     return true;
 }
 
-void read_astm_file(const std::string& bytes, const std::string& source, const InputContext& c,
-                    const std::function<void(ReadItem&&)>& fn) {
-    std::vector<std::string> messages;
-    std::vector<Finding> file_findings;
-    const bool framed =
-        bytes.find('\x05') != std::string::npos || bytes.find('\x02') != std::string::npos;
-    if (framed) {
-        // A capture of the line: the E1381 receiver takes the frames apart,
-        // exactly as it would on a serial port (checksums, frame numbers).
-        astm::LinkReceiver receiver;
-        auto actions = receiver.feed(bytes, 0);
-        auto end = receiver.reset();
-        messages = std::move(actions.messages);
-        for (const auto& d : actions.discards)
-            file_findings.push_back(Finding{"astm.message-discarded",
-                                            Severity::error,
-                                            "",
-                                            source + ": a partial message was dropped (" +
-                                                std::string(astm::to_string(d.reason)) + ")",
-                                            {}});
-        for (const auto& d : end.discards)
-            file_findings.push_back(Finding{"astm.message-discarded",
-                                            Severity::error,
-                                            "",
-                                            source + ": the capture ends inside a message (" +
-                                                std::string(astm::to_string(d.reason)) + ")",
-                                            {}});
+// ASTM, streaming: an E1381 capture (it holds ENQ or STX in its first piece)
+// goes through the link receiver piece by piece, exactly as on a serial port
+// (checksums, frame numbers); plain E1394 text is cut before each H record.
+// Each completed message is read as it comes; memory holds one message.
+bool read_astm_file(const fs::path& file, const InputContext& c,
+                    const std::function<void(ReadItem&&)>& fn, std::string& error) {
+    const std::string source = source_name(file);
+    HeldItems items(source, fn);
+    std::vector<Finding> found;  // file findings not yet given to an item
+    const auto read_message = [&](std::string_view text) {
+        auto outcome = astm::read_e1394(text, *c.profile, &offset_of, source);
+        found.insert(found.end(), outcome.findings.begin(), outcome.findings.end());
+        for (auto& r : outcome.results) {
+            ReadItem item;
+            item.source = items.next_source();
+            item.read = true;
+            item.findings = r.findings;
+            item.result = std::move(r);
+            items.push(std::move(item), std::exchange(found, {}));
+        }
+    };
+    const auto discarded = [&](const std::vector<astm::Discard>& ds, const char* what) {
+        for (const auto& d : ds)
+            found.push_back(
+                Finding{"astm.message-discarded",
+                        Severity::error,
+                        "",
+                        source + ": " + what + " (" + std::string(astm::to_string(d.reason)) + ")",
+                        {}});
+    };
+    const auto take = [&](astm::ReceiverActions&& actions) {
+        discarded(actions.discards, "a partial message was dropped");
         for (const auto& e : actions.frame_errors)
-            file_findings.push_back(
+            found.push_back(
                 Finding{"astm.frame-refused",
                         Severity::warning,
                         "",
                         source + ": a frame was refused and would be NAKed: " + e.message,
                         {}});
-    } else {
-        messages.push_back(bytes);
-    }
-    std::vector<ReadItem> items;
-    int n = 0;
-    for (const auto& text : messages) {
-        auto outcome = astm::read_e1394(text, *c.profile, &offset_of, source);
-        file_findings.insert(file_findings.end(), outcome.findings.begin(), outcome.findings.end());
-        for (auto& r : outcome.results) {
-            ReadItem item;
-            item.source = source + "#" + std::to_string(++n);
-            item.read = true;
-            item.findings = r.findings;
-            item.result = std::move(r);
-            items.push_back(std::move(item));
+        for (const auto& m : actions.messages) read_message(m);
+    };
+    std::optional<bool> framed;
+    astm::LinkReceiver receiver;
+    std::string text;  // plain E1394: what is not yet known to be a whole message
+    std::size_t scanned = 0;
+    const auto plain = [&](std::string_view piece, bool at_end) {
+        text.append(piece);
+        // A record starts a line; an H record ('H' then its field delimiter) a message.
+        std::size_t resume = std::string::npos;  // where to look again once more has come
+        for (std::size_t at = text.find_first_of("\r\n", scanned); at != std::string::npos;
+             at = text.find_first_of("\r\n", at + 1)) {
+            if (at + 2 >= text.size()) {  // the next line's start is not here yet
+                resume = at;
+                break;
+            }
+            const char next = text[at + 1];
+            const unsigned char delimiter = static_cast<unsigned char>(text[at + 2]);
+            if (next == 'H' && !std::isalnum(delimiter) && delimiter > ' ') {
+                read_message(std::string_view(text).substr(0, at + 1));
+                text.erase(0, at + 1);
+                at = 0;
+            }
         }
+        scanned = resume == std::string::npos ? text.size() : resume;
+        if (at_end && text.find_first_not_of("\r\n ") != std::string::npos) read_message(text);
+    };
+    bool read_any = false;
+    const bool ok = read_pieces(
+        file,
+        [&](std::string_view piece) {
+            if (!framed)
+                framed = piece.find('\x05') != std::string_view::npos ||
+                         piece.find('\x02') != std::string_view::npos;
+            if (*framed)
+                take(receiver.feed(piece, 0));
+            else
+                plain(piece, false);
+        },
+        error, &read_any);
+    if (!ok && !read_any) return false;
+    if (framed.value_or(false)) {
+        auto end = receiver.reset();
+        discarded(end.discards, "the capture ends inside a message");
+    } else {
+        plain({}, true);
     }
-    emit_all(std::move(items), std::move(file_findings), source, fn);
+    if (!ok) found.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
+    items.finish(std::move(found));
+    return true;
 }
 
 bool read_csv_file(const fs::path& file, const InputContext& c,
@@ -264,7 +336,7 @@ bool read_csv_file(const fs::path& file, const InputContext& c,
                                          item.findings.end());
         fn(std::move(item));
     };
-    std::string chunk(kCsvChunkBytes, '\0');
+    static thread_local std::string chunk(kCsvChunkBytes, '\0');  // filled once, not per file
     while (in) {
         in.read(chunk.data(), static_cast<std::streamsize>(chunk.size()));
         reader.feed(std::string_view(chunk.data(), static_cast<std::size_t>(in.gcount())), emit);
@@ -338,6 +410,7 @@ bool for_each_item(const fs::path& file, const InputContext& c,
         return true;
     }
     if (c.from == InputFormat::hl7v2) return read_hl7_file(file, fn, error);
+    if (c.from == InputFormat::astm) return read_astm_file(file, c, fn, error);
     std::string bytes;
     if (!read_whole(file, bytes, error)) return false;
     switch (c.from) {
@@ -351,8 +424,7 @@ bool for_each_item(const fs::path& file, const InputContext& c,
         case InputFormat::hl7v2:
             break;  // streamed above
         case InputFormat::astm:
-            read_astm_file(bytes, source, c, fn);
-            return true;
+            break;  // streamed above
         case InputFormat::csv:
             break;
     }

@@ -90,6 +90,34 @@ diff "$work/hl7v2/SPX3-004801.json" "$work/stdin-hl7/SPX3-004801.json" >/dev/nul
 diff -r -x summary.json -x rejects.jsonl -x .pftgw-done "$work/csv" "$work/stdin-csv" >/dev/null && ok ||
   bad "CSV on stdin differs from the file"
 
+# Archive scale for ASTM: 3,000 sessions (about 1 MB, more than one 256 KiB
+# read) as plain E1394 text, one message after another, and as one E1381
+# capture of them: each session is read once, none lost at a piece boundary.
+python3 - samples/exports/spx3-ilvesson-2026-03-20.astm "$work/many.astm" "$work/many-capture.astm" <<'PY'
+import sys
+text = open(sys.argv[1], 'rb').read()
+plain = bytearray()
+capture = bytearray()
+for n in range(3000):
+    msg = text.replace(b"004801", b"%06d" % (100000 + n))
+    plain += msg
+    # STX FN text ETX C1 C2 CR LF, checksum = sum of FN..ETX mod 256 (ASTM E1381,
+    # interop-facts.md, V); one transmission (ENQ ... EOT) per message.
+    capture += b"\x05"
+    for i, rec in enumerate(r + b"\r" for r in msg.split(b"\r") if r):
+        body = str((i + 1) % 8).encode() + rec + b"\x03"
+        capture += b"\x02" + body + ("%02X" % (sum(body) % 256)).encode() + b"\r\n"
+    capture += b"\x04"
+open(sys.argv[2], "wb").write(plain)
+open(sys.argv[3], "wb").write(capture)
+PY
+for f in many many-capture; do
+  "$pftgw" convert --quiet --from astm --profile "$profile" --to neutral-json --out "$work/$f" "$work/$f.astm"
+  rc=$?
+  n=$(find "$work/$f" -name 'SPX3-*.json' | wc -l)
+  [ "$rc" -eq 0 ] && [ "$n" -eq 3000 ] && ok || bad "ASTM $f: exit $rc, $n results, expected 3000"
+done
+
 # An HL7 batch file (FHS/BHS ... BTS/FTS, three sessions, LF segment ends):
 # the same outputs with 1 and 2 jobs, a second run skips all three, and a
 # profile whose content changed (same file name) converts them again.

@@ -5,6 +5,7 @@
 // - a message with a result was parsed, and its findings are the result's;
 // - reading the same bytes again gives the same results (deterministic);
 // - a message's own bytes read alone give the same control id;
+// - the streaming splitter fed in pieces gives the same messages and file findings;
 // - the ACK of a parsed message starts "MSH" + its field separator and holds
 //   MSA with the received MSH-10; an unparsed message gets no ACK.
 // Seed corpus: tests/fuzz/corpus/hl7_reader/ (valid, batched and broken files).
@@ -14,6 +15,7 @@
 #include <cstdlib>
 #include <string>
 #include <string_view>
+#include <vector>
 
 #include "adapters/hl7v2/ack_writer.hpp"
 #include "adapters/hl7v2/oru_reader.hpp"
@@ -93,6 +95,28 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
         const Hl7ReadOutcome alone = read_hl7(input.substr(m.begin, m.end - m.begin), options);
         check(!alone.messages.empty() && alone.messages[0].control_id == m.control_id);
     }
+
+    // The streaming splitter fed in pieces (pftgw convert reads files so)
+    // hands over the very messages and file findings split_hl7 gives. The
+    // piece size comes from the input's first byte: 1 to 256.
+    const std::size_t piece = size ? static_cast<std::size_t>(data[0]) + 1 : 1;
+    Hl7Splitter splitter;
+    std::vector<MessageRange> pieces_ranges;
+    const Hl7Splitter::MessageFn fn = [&](std::string&& bytes, std::size_t offset) {
+        check(offset + bytes.size() <= size && input.substr(offset, bytes.size()) == bytes);
+        pieces_ranges.push_back({offset, offset + bytes.size()});
+    };
+    for (std::size_t at = 0; at < size; at += piece) splitter.feed(input.substr(at, piece), fn);
+    splitter.finish(fn);
+    const std::vector<Finding> piece_findings = splitter.take_findings();
+    check(pieces_ranges.size() == out.messages.size());
+    for (std::size_t i = 0; i < pieces_ranges.size(); ++i)
+        check(pieces_ranges[i].begin == out.messages[i].begin &&
+              pieces_ranges[i].end == out.messages[i].end);
+    check(piece_findings.size() == out.findings.size());
+    for (std::size_t i = 0; i < piece_findings.size(); ++i)
+        check(piece_findings[i].rule == out.findings[i].rule &&
+              piece_findings[i].path == out.findings[i].path);
 
     const Hl7ReadOutcome again = read_hl7(input, options);
     check(again.messages.size() == out.messages.size());

@@ -342,11 +342,14 @@ private:
             rate > 0 ? static_cast<double>(total - std::min(total, counts.read)) / rate : 0;
         const int width = 30;
         const int filled = total ? static_cast<int>(width * counts.read / total) : width;
-        fmt::print(stderr,
-                   "\r[{:<{}}] {}/{}  {:.0f}/s  {}:{:02d} left  written {} skipped {} rejected {}",
+        // The first second's rate says little (the first batch is still in flight).
+        const std::string eta = elapsed < 1.0
+                                    ? std::string("--:--")
+                                    : fmt::format("{}:{:02d}", static_cast<int>(left) / 60,
+                                                  static_cast<int>(left) % 60);
+        fmt::print(stderr, "\r[{:<{}}] {}/{}  {:.0f}/s  {} left  written {} skipped {} rejected {}",
                    std::string(static_cast<std::size_t>(filled), '#'), width, counts.read, total,
-                   rate, static_cast<int>(left) / 60, static_cast<int>(left) % 60, counts.written,
-                   skipped, counts.blocked + counts.unreadable);
+                   rate, eta, counts.written, skipped, counts.blocked + counts.unreadable);
         progress_shown_ = true;
     }
 

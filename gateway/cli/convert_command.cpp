@@ -343,7 +343,7 @@ private:
         const int width = 30;
         const int filled = total ? static_cast<int>(width * counts.read / total) : width;
         // The first second's rate says little (the first batch is still in flight).
-        const std::string eta = elapsed < 1.0
+        const std::string eta = elapsed < 1.0 && counts.read < total
                                     ? std::string("--:--")
                                     : fmt::format("{}:{:02d}", static_cast<int>(left) / 60,
                                                   static_cast<int>(left) % 60);

@@ -18,29 +18,53 @@ import argparse, os, random, resource, shutil, subprocess, sys, tempfile, time
 HERE = os.path.dirname(os.path.abspath(__file__))
 ROOT = os.path.dirname(os.path.dirname(HERE))
 
-OBX = [  # code, value range, unit
-    ("B01", (1.5, 4.5), "L"), ("B02", (2.0, 5.5), "L"), ("B03", (60, 85), "%"), ("B04", (4, 10), "L/s"),
-    ("B05", (1, 4), "L/s"), ("B06", (6, 12), "s"), ("B07", (2.5, 4), "L"), ("B08", (1.9, 3.2), "L"),
-    ("B09", (3, 5), "L"), ("B10", (2.4, 4), "L"), ("B11", (2.2, 5.5), "L"), ("B12", (4.5, 7.5), "L"),
-    ("B13", (1.3, 2.4), "L"), ("B14", (2.4, 3.6), "L"), ("B15", (0.8, 1.4), "L"), ("B16", (2.0, 3.8), "L"),
-    ("B17", (25, 35), "%"), ("B18", (18, 32), "mL/min/mm[Hg]"), ("B19", (4.5, 6.5), "L"),
-    ("B20", (4, 5.5), "mL/min/mm[Hg]/L"), ("B21", (3, 5), "L"), ("B22", (9, 11), "s"),
-    ("B23", (12, 16), "g/dL"), ("B24", (0.5, 2), "%"), ("B25", (24, 32), "mL/min/mm[Hg]"),
-]
+UNITS = {  # bench-box.toml's codes and the units the box sends
+    "B01": "L", "B02": "L", "B03": "%", "B04": "L/s", "B05": "L/s", "B06": "s", "B07": "L",
+    "B08": "L", "B09": "L", "B10": "L", "B11": "L", "B12": "L", "B13": "L", "B14": "L",
+    "B15": "L", "B16": "L", "B17": "%", "B18": "mL/min/mm[Hg]", "B19": "L",
+    "B20": "mL/min/mm[Hg]/L", "B21": "L", "B22": "s", "B23": "g/dL", "B24": "%",
+    "B25": "mL/min/mm[Hg]",
+}
+
+
+def session_values(rnd):
+    """An invented session whose values agree with each other as a real one's
+    do (the lung-volume identities, the ratios, VA within TLC, VI near VC), so
+    the benchmark converts results rather than rejecting them. Each value is
+    rounded as sent, and what is computed from others uses the rounded ones."""
+    u = rnd.uniform
+    r2 = lambda x: round(x, 2)
+    v = {}
+    v["B01"] = fev1 = r2(u(1.5, 4.5))
+    v["B02"] = fvc = r2(fev1 * u(1.15, 1.45))
+    v["B03"] = round(100 * fev1 / fvc, 1)
+    v["B04"], v["B05"], v["B06"] = r2(u(4, 10)), r2(u(1, 4)), r2(u(6, 12))
+    v["B07"] = r2(fev1 * u(0.9, 1.2))
+    v["B08"] = r2(v["B07"] * 0.8)
+    v["B09"] = r2(fvc * u(0.9, 1.2))
+    v["B10"] = r2(v["B09"] * 0.8)
+    v["B11"] = vc = r2(fvc * u(0.98, 1.04))
+    v["B15"] = erv = r2(u(0.8, 1.4))
+    v["B16"] = r2(vc - erv)                         # IC = VC - ERV
+    v["B13"] = rv = r2(u(1.3, 2.4))
+    v["B14"] = r2(rv + erv)                         # FRC = RV + ERV
+    v["B12"] = tlc = r2(rv + vc)                    # TLC = RV + VC
+    v["B17"] = round(100 * rv / tlc, 1)
+    v["B19"] = va = r2(tlc * u(0.85, 0.95))
+    v["B18"] = dlco = r2(va * u(3.8, 5.6))          # KCO 3.8-5.6 mL/min/mm[Hg]/L
+    v["B20"] = r2(dlco / va)
+    v["B21"] = r2(vc * u(0.92, 1.0))
+    v["B22"], v["B23"], v["B24"] = r2(u(9.5, 10.5)), r2(u(12, 16)), r2(u(0.5, 2))
+    v["B25"] = r2(dlco * u(0.9, 1.2))
+    return v
 
 
 def hl7_message(i, rnd):
     seg = [f"MSH|^~\\&|BOX25|BENCH1|||20260301{8 + i % 10:02d}0000||ORU^R01|B{i:09d}|P|2.5.1||||||UNICODE UTF-8",
            f"PID|1||H{i % 50000:07d}^^^&https://bench.example/mrn&URI^MR||Benchperson^Case{i % 997}||19{50 + i % 40}0612|{'MF'[i % 2]}",
            f"OBR|1|P{i}|F{i}|PFT|||20260301{8 + i % 10:02d}0500+0100"]
-    fev1 = 1.5 + 3.0 * rnd.random()
-    for n, (code, (lo, hi), unit) in enumerate(OBX, 1):
-        v = lo + (hi - lo) * rnd.random()
-        if code == "B01":
-            v = fev1
-        elif code == "B02":
-            v = fev1 * (1.15 + 0.3 * rnd.random())  # FVC above FEV1, as in any real maneuver
-        seg.append(f"OBX|{n}|NM|{code}^Bench quantity {code}^L||{v:.2f}|{unit}^^UCUM|||||F|||"
+    for n, (code, value) in enumerate(session_values(rnd).items(), 1):
+        seg.append(f"OBX|{n}|NM|{code}^Bench quantity {code}^L||{value:.2f}|{UNITS[code]}^^UCUM|||||F|||"
                    f"20260301{8 + i % 10:02d}0500+0100||||BENCH1")
     return "\r".join(seg) + "\r"
 

@@ -39,6 +39,9 @@ constexpr const char* kManifestName = ".pftgw-done";
 constexpr const char* kRejectsName = "rejects.jsonl";
 constexpr const char* kSummaryName = "summary.json";
 constexpr auto kProgressInterval = std::chrono::milliseconds(200);
+// Rejected results shown with their findings on standard error; the rest are
+// in rejects.jsonl only, so an archive's thousands do not bury the summary.
+constexpr std::size_t kRejectsOnScreen = 20;
 
 struct ConvertOptions {
     std::string to;
@@ -316,10 +319,21 @@ private:
                 else
                     ++counts.unreadable;
                 rejects_ << reject_json(w).dump() << '\n';
-                if (!o_.quiet) {
+                if (!o_.quiet && ++rejects_shown_ <= kRejectsOnScreen) {
                     if (progress_shown_) std::fputs("\r\033[K", stderr);
                     print_findings_text(stderr, w.processed,
                                         w.outcome == Outcome::blocked ? "blocked" : "unreadable");
+                    if (rejects_shown_ == kRejectsOnScreen) {
+                        if (o_.dry_run)
+                            fmt::print(stderr,
+                                       "({} rejected results shown; a dry run writes no "
+                                       "rejects.jsonl: the summary counts the rest)\n",
+                                       kRejectsOnScreen);
+                        else
+                            fmt::print(stderr,
+                                       "({} rejected results shown; the rest are only in {})\n",
+                                       kRejectsOnScreen, (out_dir_ / kRejectsName).string());
+                    }
                 }
                 break;
             case Outcome::failed:
@@ -379,6 +393,7 @@ private:
     std::vector<std::thread> workers_;
     std::atomic<std::size_t> next_{0};
     bool progress_shown_ = false;
+    std::size_t rejects_shown_ = 0;
     std::chrono::steady_clock::time_point start_ = std::chrono::steady_clock::now();
     std::chrono::steady_clock::time_point last_progress_{};
 };

@@ -95,6 +95,15 @@ skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skipp
 skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
 [ "$skipped" -eq 0 ] && ok || bad "a run with other options skipped $skipped"
 
+# Many rejects: the first 20 are shown with their findings, every one is in rejects.jsonl.
+mkdir -p "$work/bad25"
+for i in $(seq 1 25); do cp samples/lab/bad-unit-not-ucum.json "$work/bad25/b$i.json"; done
+"$pftgw" convert --to fhir-json --out "$work/bad25-out" "$work/bad25" > /dev/null 2> "$work/bad25.err"
+shown=$(grep -c '^blocked' "$work/bad25.err")
+listed=$(wc -l < "$work/bad25-out/rejects.jsonl")
+[ "$shown" -eq 20 ] && [ "$listed" -eq 25 ] && grep -q 'the rest are only in' "$work/bad25.err" && ok ||
+  bad "25 rejects: $shown shown (20 expected), $listed in rejects.jsonl (25 expected)"
+
 # Neutral documents on standard input ("-"): one XML document, and JSON Lines
 # (each line a result, named stdin:LINE) give what the files give.
 "$pftgw" convert --quiet --to hl7v2 --out "$work/stdin-xml" - < samples/lab/2026-03-02-ilvesson-spirometry.xml

@@ -8,11 +8,13 @@
 #include <unistd.h>
 
 #include <atomic>
+#include <charconv>
 #include <chrono>
 #include <filesystem>
 #include <fstream>
 #include <map>
 #include <nlohmann/json.hpp>
+#include <optional>
 #include <thread>
 #include <unordered_set>
 
@@ -113,6 +115,10 @@ std::string options_signature(const ConvertOptions& o) {
                        o.writer.receiving_application, o.writer.receiving_facility);
 }
 
+// The manifest: a line "<key> <size> <path>" per file written. Only a file
+// still on disk with that very size counts as done, so a file cut short (a
+// stop mid-write, a power cut before the data reached the disk) is written
+// again. Lines "<key> <path>" of earlier versions check existence only.
 std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
     std::unordered_set<std::string> done;
     std::ifstream in(out_dir / kManifestName);
@@ -120,9 +126,22 @@ std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
     while (std::getline(in, line)) {
         const auto space = line.find(' ');
         if (space == std::string::npos) continue;
-        // Only what is still on disk counts as done.
+        std::string_view rest = std::string_view(line).substr(space + 1);
+        std::optional<std::uintmax_t> size;
+        const auto gap = rest.find(' ');
+        if (gap != std::string_view::npos && gap > 0 &&
+            rest.substr(0, gap).find_first_not_of("0123456789") == std::string_view::npos) {
+            std::uintmax_t n = 0;
+            const auto [end, err] = std::from_chars(rest.data(), rest.data() + gap, n);
+            if (err != std::errc()) continue;  // a damaged line: convert that input again
+            size = n;
+            rest.remove_prefix(gap + 1);
+        }
         std::error_code ec;
-        if (fs::exists(out_dir / line.substr(space + 1), ec)) done.insert(line.substr(0, space));
+        const fs::path file = out_dir / std::string(rest);
+        if (!fs::exists(file, ec)) continue;
+        if (size && fs::file_size(file, ec) != *size) continue;
+        done.insert(line.substr(0, space));
     }
     return done;
 }
@@ -307,7 +326,7 @@ private:
                 }
                 ++counts.written;
                 if (has_warnings(w.processed.findings)) ++counts.with_warnings;
-                manifest_ << w.key << ' ' << w.relative_path << '\n';
+                manifest_ << w.key << ' ' << w.bytes.size() << ' ' << w.relative_path << '\n';
                 break;
             case Outcome::skipped:
                 ++skipped;

@@ -91,6 +91,14 @@ blocked=$(python3 -c "import json,sys; d=json.load(open(sys.argv[1])); print(d['
 "$pftgw" convert --quiet --to fhir-json --out "$work/j1" samples/lab 2>/dev/null
 skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
 [ "$skipped" -eq "$written" ] && ok || bad "resumed run skipped $skipped, expected $written"
+# A file cut short (a stop mid-write, a power cut) is not "already written".
+victim=$(find "$work/j1" -name '*.json' ! -name summary.json | sort | head -n 1)
+cp "$victim" "$work/victim.json"
+truncate -s 100 "$victim"
+"$pftgw" convert --quiet --to fhir-json --out "$work/j1" samples/lab 2>/dev/null
+skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
+[ "$skipped" -eq $((written - 1)) ] && cmp -s "$victim" "$work/victim.json" && ok ||
+  bad "after a file was cut short the resumed run skipped $skipped (expected $((written - 1))) or did not rewrite it"
 "$pftgw" convert --quiet --to fhir-json --units traditional --out "$work/j1" samples/lab 2>/dev/null
 skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
 [ "$skipped" -eq 0 ] && ok || bad "a run with other options skipped $skipped"

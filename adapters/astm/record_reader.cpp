@@ -408,9 +408,10 @@ private:
                 on_terminator(r);
                 break;
             default:
-                report("astm.record-ignored", Severity::info, r.path(),
-                       "record type '" + std::string(1, type) + "' is not read; kept here",
-                       {{"record", r.decode(line)}});
+                report(
+                    "astm.record-ignored", Severity::info, r.path(),
+                    "record type '" + std::string(1, type) + "' is not read; kept in this finding",
+                    {{"record", r.decode(line)}});
         }
         after_record(r);
     }
@@ -599,7 +600,7 @@ private:
     void on_result(const Record& r) {
         if (!session_) {
             report("astm.record-order", Severity::error, r.path(),
-                   "an R record before any O record; its value is kept here only",
+                   "an R record before any O record; its value is kept in this finding only",
                    {{"code", r.text(3, 4)}, {"value", r.text(4)}, {"unit", r.text(5)}});
             return;
         }

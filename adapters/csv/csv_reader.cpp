@@ -457,7 +457,7 @@ void CsvReader::value_row(const std::vector<std::string>& fields, std::size_t li
         session_->findings.push_back(finding("profile.unmapped-code", Severity::warning, "",
                                              where + ": code '" + code +
                                                  "' is not mapped by profile " + profile_.name +
-                                                 "; kept here, not converted",
+                                                 "; kept in this finding, not converted",
                                              {{"code", code}, {"value", value}, {"unit", unit}}));
         return;
     }

@@ -455,7 +455,7 @@ private:
                     " is not mapped by " +
                     (profile_ ? "device profile '" + profile_->name + "'"
                               : std::string("any device profile")) +
-                    "; value kept here",
+                    "; its value is kept in this finding",
                 {{"code", code},
                  {"coding_system", system},
                  {"value", value_text},
@@ -644,7 +644,8 @@ private:
             Quantity* q = find_base(v);
             if (!q) {
                 add(kRuleReferenceOrphan, Severity::warning, "",
-                    v.variant + " of " + v.base + " sent without the measured value; kept here",
+                    v.variant + " of " + v.base +
+                        " sent without the measured value; kept in this finding",
                     {{"code", v.code},
                      {"kind", v.base},
                      {"variant", v.variant},
@@ -673,8 +674,8 @@ private:
                 result_->tests.front().comments.push_back(text);
             } else {
                 add("hl7.comment-without-test", Severity::warning, "",
-                    "NTE outside any test with values; kept here", {{"text", text}}, {"NTE", 1, 3},
-                    kErrSegmentSequence);
+                    "NTE outside any test with values; kept in this finding", {{"text", text}},
+                    {"NTE", 1, 3}, kErrSegmentSequence);
             }
         }
     }

@@ -22,6 +22,16 @@ void print_findings_text(std::FILE* out, const Processed& p, const char* outcome
     for (const auto& f : p.findings) {
         fmt::print(out, "    {:<7}  {:<28}  {}\n", to_string(f.severity), f.rule, f.path);
         fmt::print(out, "             {}\n", f.message);
+        // What was seen, as the reader kept it (the unmapped code's value and
+        // unit, the HL7 error code): for whoever has to fix the export.
+        if (f.severity == Severity::info || f.values.empty()) continue;
+        std::string seen;
+        for (const auto& [name, value] : f.values) {
+            if (value.empty()) continue;
+            if (!seen.empty()) seen += "; ";
+            seen += name + "=" + value;
+        }
+        if (!seen.empty()) fmt::print(out, "             seen: {}\n", seen);
     }
 }
 

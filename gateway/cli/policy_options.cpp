@@ -70,6 +70,16 @@ bool make_input_context(const InputOptions& o, InputContext& context,
     }
     context.from = *from;
     if (o.profile.empty()) {
+        // HL7 without a profile maps no code: `check` then lists every code a
+        // device sends (a start for writing its profile); `convert` would
+        // only block every result.
+        if (*from == InputFormat::hl7v2 && std::string_view(command) == "convert") {
+            fmt::print(
+                stderr,
+                "pftgw convert: --from hl7v2 needs --profile FILE (which code means which "
+                "quantity); `pftgw check --from hl7v2 FILE` lists the codes a device sends\n");
+            return false;
+        }
         if (*from == InputFormat::astm || *from == InputFormat::csv) {
             fmt::print(
                 stderr,

@@ -30,6 +30,8 @@ import sys
 
 import hl7  # Debian python3-hl7
 
+from tally import Tally
+
 # What each invented input was written to provoke (same table as the gtest).
 EXPECTED = {
     "accept_23_lf.1": "AA",
@@ -113,7 +115,7 @@ def main(argv):
         print("0 passed, 1 failed")
         return 2
     input_dir, ack_dir = argv[1], argv[2]
-    passed = failed = 0
+    tally = Tally()
     names = sorted(n for n in os.listdir(input_dir) if n.endswith(".hl7"))
     for file_name in names:
         with open(os.path.join(input_dir, file_name), "rb") as fh:
@@ -131,19 +133,8 @@ def main(argv):
                     errors = check(name, received_text, ack_text, EXPECTED[name])
             except (OSError, UnicodeDecodeError, ValueError) as e:
                 errors = [str(e)]
-            if errors:
-                failed += 1
-                for e in errors:
-                    print(f"FAIL {name}: {e}")
-            else:
-                passed += 1
-                print(f"ok   {name}")
-    if not names:
-        print(f"no .hl7 files in {input_dir}")
-        failed += 1
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
-
+            tally.record(name, errors)
+    return tally.finish(None if names else f"no .hl7 files in {input_dir}")
 
 if __name__ == "__main__":
     sys.exit(main(sys.argv))

@@ -38,6 +38,8 @@ import sys
 
 import hl7  # Debian python3-hl7
 
+from tally import Tally
+
 
 def field(seg, n):
     """Field n (HL7 numbering; python-hl7 keeps MSH-1 as seg[1]) as raw text."""
@@ -215,7 +217,7 @@ def main(argv):
         for f in files
         if f.endswith(".hl7")
     )
-    passed = failed = 0
+    tally = Tally()
     seen_ids = {}
     for name in names:
         try:
@@ -226,19 +228,8 @@ def main(argv):
             errors = check_message(name, text, neutral, codes, seen_ids)
         except (OSError, UnicodeDecodeError, ValueError) as e:
             errors = [str(e)]
-        if errors:
-            failed += 1
-            for e in errors:
-                print(f"FAIL {name}: {e}")
-        else:
-            passed += 1
-            print(f"ok   {name}")
-    if not names:
-        print(f"no .hl7 files in {hl7_dir}")
-        failed += 1
-    print(f"{passed} passed, {failed} failed")
-    return 1 if failed else 0
-
+        tally.record(name, errors)
+    return tally.finish(None if names else f"no .hl7 files in {hl7_dir}")
 
 if __name__ == "__main__":
     sys.exit(main(sys.argv))

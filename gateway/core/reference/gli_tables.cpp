@@ -218,17 +218,7 @@ std::string_view table_name(GliQuantity q) {
 }
 
 std::string_view table_set_label(EquationSet set) {
-    switch (set) {
-        case EquationSet::gli_global_2022:
-            return "GLI-2022-Global";
-        case EquationSet::gli_2012:
-            return "GLI-2012";
-        case EquationSet::gli_2017:
-            return "GLI-2017";
-        case EquationSet::gli_2021:
-            return "GLI-2021";
-    }
-    return "";
+    return names_of(set).table;
 }
 
 const Equation* GliTables::find(EquationSet set, GliQuantity q, SexAtBirth sex) const {

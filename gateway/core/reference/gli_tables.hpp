@@ -16,7 +16,25 @@ namespace pftgw {
 
 // The GLI equation sets the gateway computes.
 enum class EquationSet : std::uint8_t { gli_global_2022, gli_2012, gli_2017, gli_2021 };
+
 inline constexpr std::size_t kEquationSetCount = 4;
+
+// Every name a set goes by, in one place (indexed by EquationSet).
+struct EquationSetNames {
+    std::string_view label;    // in ReferenceValues::equation_set ("GLI Global 2022")
+    std::string_view version;  // the version note ("Bowerman 2023, race-neutral")
+    std::string_view cli;      // on the command line ("gli-global-2022")
+    std::string_view table;    // in schemas/reference/gli/ ("GLI-2022-Global")
+};
+inline constexpr std::array<EquationSetNames, kEquationSetCount> kEquationSetNames{{
+    {"GLI Global 2022", "Bowerman 2023, race-neutral", "gli-global-2022", "GLI-2022-Global"},
+    {"GLI-2012", "Quanjer 2012", "gli-2012", "GLI-2012"},
+    {"GLI-2017", "2020 author correction", "gli-2017", "GLI-2017"},
+    {"GLI-2021", "Hall 2021", "gli-2021", "GLI-2021"},
+}};
+inline constexpr const EquationSetNames& names_of(EquationSet set) {
+    return kEquationSetNames[static_cast<std::size_t>(set)];
+}
 
 // The quantities of the published tables (one per spline sheet), not the
 // project's kinds: DLCO has an SI and a traditional sheet, RV/TLC is in percent.

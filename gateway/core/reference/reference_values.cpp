@@ -147,45 +147,15 @@ const KindSpec* find_kind(std::string_view kind) {
 }  // namespace
 
 std::string_view equation_set_label(EquationSet set) {
-    switch (set) {
-        case EquationSet::gli_global_2022:
-            return "GLI Global 2022";
-        case EquationSet::gli_2012:
-            return "GLI-2012";
-        case EquationSet::gli_2017:
-            return "GLI-2017";
-        case EquationSet::gli_2021:
-            return "GLI-2021";
-    }
-    return "";
+    return names_of(set).label;
 }
 
 std::string_view equation_set_version(EquationSet set) {
-    switch (set) {
-        case EquationSet::gli_global_2022:
-            return "Bowerman 2023, race-neutral";
-        case EquationSet::gli_2012:
-            return "Quanjer 2012";
-        case EquationSet::gli_2017:
-            return "2020 author correction";
-        case EquationSet::gli_2021:
-            return "Hall 2021";
-    }
-    return "";
+    return names_of(set).version;
 }
 
 std::string_view cli_name(EquationSet set) {
-    switch (set) {
-        case EquationSet::gli_global_2022:
-            return "gli-global-2022";
-        case EquationSet::gli_2012:
-            return "gli-2012";
-        case EquationSet::gli_2017:
-            return "gli-2017";
-        case EquationSet::gli_2021:
-            return "gli-2021";
-    }
-    return "";
+    return names_of(set).cli;
 }
 
 std::optional<EquationSet> parse_equation_set(std::string_view text) {

@@ -901,7 +901,7 @@ void Hl7Splitter::line(std::size_t b, std::size_t e, bool terminated, const Mess
                 Finding f;
                 f.rule = std::string(kRuleBatchCount);
                 f.severity = Severity::warning;
-                f.path = "BTS";
+                f.path = "byte " + std::to_string(base_ + start);  // the BTS segment
                 f.message = "BTS-1 says " + count + " messages; the batch holds " +
                             std::to_string(batch_messages_);
                 f.values = {{"count", count}, {"read", std::to_string(batch_messages_)}};

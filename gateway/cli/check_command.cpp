@@ -70,8 +70,8 @@ public:
                                          {"withErrors", c.blocked},
                                          {"unreadable", c.unreadable},
                                          {"caution", kCaution}};
-            fmt::print("{}\n  ],\n", first_ ? "" : "\n");
-            const std::string body = tail.dump(2);  // "{\n  ...\n}": its members only
+            fmt::print("{}],\n", first_ ? "" : "\n  ");
+            const std::string body = safe_dump(tail, 2);  // "{\n  ...\n}": its members only
             fmt::print("{}\n", std::string_view(body).substr(2));
         } else if (format_ == "junit") {
             print_junit(c);
@@ -96,7 +96,7 @@ private:
                                   {"warnings", count_severity(p.findings, Severity::warning)},
                                   {"findings", findings}};
         // Indented as one element of the results array.
-        std::string text = r.dump(2);
+        std::string text = safe_dump(r, 2);
         std::string indented = "\n    ";
         for (const char ch : text) {
             indented += ch;

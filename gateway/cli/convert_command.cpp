@@ -16,6 +16,7 @@
 #include <nlohmann/json.hpp>
 #include <optional>
 #include <thread>
+#include <unordered_map>
 #include <unordered_set>
 
 #include "adapters/neutral/neutral_io.hpp"
@@ -69,6 +70,7 @@ struct Work {
     std::string relative_path;  // of the output file, when written
     std::string bytes;          // the output, written by the main thread in input order
     std::string error;          // a write failure
+    bool whole_file = false;    // a file that could not be read at all
 };
 
 // "<id>.hl7" for revision 1, "<id>.r2.hl7" for later revisions, so a
@@ -115,33 +117,51 @@ std::string options_signature(const ConvertOptions& o) {
                        o.writer.receiving_application, o.writer.receiving_facility);
 }
 
-// The manifest: a line "<key> <size> <path>" per file written. Only a file
-// still on disk with that very size counts as done, so a file cut short (a
-// stop mid-write, a power cut before the data reached the disk) is written
-// again. Lines "<key> <path>" of earlier versions check existence only.
+// The manifest: a line "<key> <size> <path>" per file written. The last line
+// of a path is the one its file on disk should match: it counts as done only
+// while the file is there at that very size, so a file cut short (a stop
+// mid-write, a power cut before the data reached the disk) is written again.
+// Earlier lines of the same path are inputs a later one with the same result
+// id replaced, in input order: done as long as the file is there. Lines
+// "<key> <path>" of earlier versions check existence only.
 std::unordered_set<std::string> load_manifest(const fs::path& out_dir) {
-    std::unordered_set<std::string> done;
+    struct Entry {
+        std::string key;
+        std::optional<std::uintmax_t> size;
+        std::string path;
+    };
+    std::vector<Entry> entries;
+    std::unordered_map<std::string, std::size_t> last_of_path;
     std::ifstream in(out_dir / kManifestName);
     std::string line;
     while (std::getline(in, line)) {
         const auto space = line.find(' ');
         if (space == std::string::npos) continue;
         std::string_view rest = std::string_view(line).substr(space + 1);
-        std::optional<std::uintmax_t> size;
+        Entry e;
+        e.key = line.substr(0, space);
         const auto gap = rest.find(' ');
         if (gap != std::string_view::npos && gap > 0 &&
             rest.substr(0, gap).find_first_not_of("0123456789") == std::string_view::npos) {
             std::uintmax_t n = 0;
             const auto [end, err] = std::from_chars(rest.data(), rest.data() + gap, n);
             if (err != std::errc()) continue;  // a damaged line: convert that input again
-            size = n;
+            e.size = n;
             rest.remove_prefix(gap + 1);
         }
+        e.path = std::string(rest);
+        last_of_path[e.path] = entries.size();
+        entries.push_back(std::move(e));
+    }
+    std::unordered_set<std::string> done;
+    for (std::size_t i = 0; i < entries.size(); ++i) {
+        const Entry& e = entries[i];
         std::error_code ec;
-        const fs::path file = out_dir / std::string(rest);
+        const fs::path file = out_dir / e.path;
         if (!fs::exists(file, ec)) continue;
-        if (size && fs::file_size(file, ec) != *size) continue;
-        done.insert(line.substr(0, space));
+        const bool last = last_of_path[e.path] == i;
+        if (last && e.size && fs::file_size(file, ec) != *e.size) continue;
+        done.insert(e.key);
     }
     return done;
 }
@@ -231,6 +251,7 @@ public:
         Work w;
         w.item.source = source;
         w.outcome = Outcome::unreadable;
+        w.whole_file = true;
         w.processed.source = source;
         w.processed.findings.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
         record(w);
@@ -239,6 +260,7 @@ public:
     RunCounts counts;
     std::size_t skipped = 0;
     std::size_t total = 0;
+    bool total_known = true;  // false when standard input is among the inputs
     bool write_failed = false;
     std::map<std::string, int> rule_counts;
 
@@ -258,7 +280,7 @@ public:
                                         {"topFindings", top},
                                         {"rejects", kRejectsName},
                                         {"caution", kCaution}};
-        if (!o_.dry_run) std::ofstream(out_dir_ / kSummaryName) << summary.dump(2) << "\n";
+        if (!o_.dry_run) std::ofstream(out_dir_ / kSummaryName) << safe_dump(summary, 2) << "\n";
         if (o_.quiet) return;
         print_summary(stdout, counts, rule_counts, o_.out_dir);
         if (skipped > 0)
@@ -337,22 +359,25 @@ private:
                     ++counts.blocked;
                 else
                     ++counts.unreadable;
-                rejects_ << reject_json(w).dump() << '\n';
-                if (!o_.quiet && ++rejects_shown_ <= kRejectsOnScreen) {
+                rejects_ << safe_dump(reject_json(w), -1) << '\n';
+                // A file that could not be read at all is always shown; results
+                // with their findings up to kRejectsOnScreen, then one line.
+                if (!o_.quiet && (w.whole_file || ++rejects_shown_ <= kRejectsOnScreen)) {
                     if (progress_shown_) std::fputs("\r\033[K", stderr);
                     print_findings_text(stderr, w.processed,
                                         w.outcome == Outcome::blocked ? "blocked" : "unreadable");
-                    if (rejects_shown_ == kRejectsOnScreen) {
-                        if (o_.dry_run)
-                            fmt::print(stderr,
-                                       "({} rejected results shown; a dry run writes no "
-                                       "rejects.jsonl: the summary counts the rest)\n",
-                                       kRejectsOnScreen);
-                        else
-                            fmt::print(stderr,
-                                       "({} rejected results shown; the rest are only in {})\n",
-                                       kRejectsOnScreen, (out_dir_ / kRejectsName).string());
-                    }
+                } else if (!o_.quiet && rejects_shown_ == kRejectsOnScreen + 1) {
+                    if (progress_shown_) std::fputs("\r\033[K", stderr);
+                    if (o_.dry_run)
+                        fmt::print(stderr,
+                                   "(more rejected results: only the first {} are shown; a dry "
+                                   "run writes no rejects.jsonl, the summary counts them)\n",
+                                   kRejectsOnScreen);
+                    else
+                        fmt::print(stderr,
+                                   "(more rejected results: only the first {} are shown; every "
+                                   "one is in {})\n",
+                                   kRejectsOnScreen, (out_dir_ / kRejectsName).string());
                 }
                 break;
             case Outcome::failed:
@@ -363,26 +388,34 @@ private:
         show_progress();
     }
 
-    // On a terminal only, and never with --quiet.
+    // On a terminal only, never with --quiet, at most every kProgressInterval.
+    // A bar while the count made at the start holds; standard input, or a
+    // device file holding more results than counted, shows counts and rate only.
     void show_progress() {
         if (o_.quiet || !isatty(fileno(stderr))) return;
         const auto now = std::chrono::steady_clock::now();
-        if (now - last_progress_ < kProgressInterval && counts.read < total) return;
+        if (now - last_progress_ < kProgressInterval) return;
         last_progress_ = now;
         const double elapsed = std::chrono::duration<double>(now - start_).count();
         const double rate = elapsed > 0 ? static_cast<double>(counts.read) / elapsed : 0;
-        const double left =
-            rate > 0 ? static_cast<double>(total - std::min(total, counts.read)) / rate : 0;
-        const int width = 30;
-        const int filled = total ? static_cast<int>(width * counts.read / total) : width;
+        const std::string tail =
+            fmt::format("{:.0f}/s  written {} skipped {} rejected {}", rate, counts.written,
+                        skipped, counts.blocked + counts.unreadable);
+        if (!total_known || counts.read > total) {
+            fmt::print(stderr, "\r\033[K{} read  {}", counts.read, tail);
+            progress_shown_ = true;
+            return;
+        }
+        const double left = rate > 0 ? static_cast<double>(total - counts.read) / rate : 0;
+        const std::size_t width = 30;
+        const std::size_t filled = total ? std::min(width, width * counts.read / total) : width;
         // The first second's rate says little (the first batch is still in flight).
-        const std::string eta = elapsed < 1.0 && counts.read < total
+        const std::string eta = elapsed < 1.0
                                     ? std::string("--:--")
                                     : fmt::format("{}:{:02d}", static_cast<int>(left) / 60,
                                                   static_cast<int>(left) % 60);
-        fmt::print(stderr, "\r[{:<{}}] {}/{}  {:.0f}/s  {} left  written {} skipped {} rejected {}",
-                   std::string(static_cast<std::size_t>(filled), '#'), width, counts.read, total,
-                   rate, eta, counts.written, skipped, counts.blocked + counts.unreadable);
+        fmt::print(stderr, "\r\033[K[{:<{}}] {}/{}  {} left  {}", std::string(filled, '#'), width,
+                   counts.read, total, eta, tail);
         progress_shown_ = true;
     }
 
@@ -465,6 +498,8 @@ int run_convert(const ConvertOptions& o) {
     Converter c(o, *format, *units, sharded, input, profile_digest);
     if (!c.set_policy()) return kExitUsage;
     c.total = total;
+    c.total_known =
+        std::none_of(files.begin(), files.end(), [](const std::string& f) { return is_stdin(f); });
     for (const auto& m : missing) c.note_unreadable_file(m, "no such file or folder: " + m);
     for (const auto& file : files) {
         std::string error;

@@ -142,35 +142,67 @@ void emit_all(std::vector<ReadItem>&& items, std::vector<Finding>&& file_finding
     for (auto& item : items) fn(std::move(item));
 }
 
-// Hands the items of one file on one behind, so that findings about the
-// file found after an item was read still travel with a result: each item
-// takes the findings found before it, the last one those found after it. A
-// file with no item gives one item of its findings (emit_all).
+// Hands the items of one file on, one behind, so that what is found about
+// the file travels where it belongs:
+// - an error (a message dropped, the file unreadable mid-way) is an item of
+//   its own, with no result: it goes to the rejects, and blocks no result;
+// - a warning about what follows (a stray segment) goes with the next item;
+// - a warning about what came before (a batch count) goes with the item held.
+// A file with no item gives one item of its findings (emit_all).
 class HeldItems {
 public:
     HeldItems(std::string source, const std::function<void(ReadItem&&)>& fn)
         : source_(std::move(source)), fn_(fn) {}
     std::string next_source() { return source_ + "#" + std::to_string(++count_); }
-    void push(ReadItem&& item, std::vector<Finding>&& found_before) {
-        if (held_) fn_(std::move(*held_));
-        item.findings.insert(item.findings.begin(), found_before.begin(), found_before.end());
+
+    void push(ReadItem&& item) {
+        release();
+        item.findings.insert(item.findings.begin(), pending_.begin(), pending_.end());
+        pending_.clear();
         held_ = std::move(item);
     }
-    void finish(std::vector<Finding>&& rest) {
-        if (!held_) {
-            emit_all({}, std::move(rest), source_, fn_);
-            return;
+    void found(std::vector<Finding>&& findings, bool about_what_came_before = false) {
+        std::vector<Finding> errors;
+        for (auto& f : findings) {
+            if (f.severity == Severity::error)
+                errors.push_back(std::move(f));
+            else if (about_what_came_before && held_)
+                held_->findings.push_back(std::move(f));
+            else
+                pending_.push_back(std::move(f));
         }
-        held_->findings.insert(held_->findings.end(), rest.begin(), rest.end());
-        fn_(std::move(*held_));
-        held_.reset();
+        if (errors.empty()) return;
+        release();
+        ReadItem lone;
+        lone.source = source_;
+        lone.read = true;
+        lone.findings = std::move(errors);
+        fn_(std::move(lone));
+        any_ = true;
+    }
+    void finish() {
+        if (held_) {
+            held_->findings.insert(held_->findings.end(), pending_.begin(), pending_.end());
+            pending_.clear();
+            release();
+        } else if (!pending_.empty() || !any_) {
+            emit_all({}, std::exchange(pending_, {}), source_, fn_);
+        }
     }
 
 private:
+    void release() {
+        if (!held_) return;
+        fn_(std::move(*held_));
+        held_.reset();
+        any_ = true;
+    }
     std::string source_;
     const std::function<void(ReadItem&&)>& fn_;
     std::optional<ReadItem> held_;
+    std::vector<Finding> pending_;  // warnings for the next item
     std::size_t count_ = 0;
+    bool any_ = false;  // something was handed on
 };
 
 // Reads `file` (or standard input) in pieces, giving each to `piece`. False,
@@ -209,21 +241,37 @@ bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& 
                    std::string& error) {
     hl7v2::Hl7Splitter splitter;
     HeldItems items(source_name(file), fn);
+    // A batch count is about the batch just ended (its last message is held);
+    // a stray segment about what follows it.
+    const auto pass_findings = [&] {
+        std::vector<Finding> counts;
+        std::vector<Finding> others;
+        for (auto& f : splitter.take_findings())
+            (f.rule == hl7v2::kRuleBatchCount ? counts : others).push_back(std::move(f));
+        items.found(std::move(counts), true);
+        items.found(std::move(others));
+    };
     const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string&& bytes, std::size_t) {
+        pass_findings();
         ReadItem item;
         item.source = items.next_source();
         item.format = InputFormat::hl7v2;
         item.bytes = std::move(bytes);
-        items.push(std::move(item), splitter.take_findings());
+        items.push(std::move(item));
     };
     bool read_any = false;
     const bool ok = read_pieces(
-        file, [&](std::string_view piece) { splitter.feed(piece, on_message); }, error, &read_any);
+        file,
+        [&](std::string_view piece) {
+            splitter.feed(piece, on_message);
+            pass_findings();  // a batch count found here is about the message held now
+        },
+        error, &read_any);
     if (!ok && !read_any) return false;  // nothing read: the file is unreadable
     splitter.finish(on_message);
-    std::vector<Finding> rest = splitter.take_findings();
-    if (!ok) rest.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
-    items.finish(std::move(rest));
+    pass_findings();
+    if (!ok) items.found({Finding{"read.unreadable", Severity::error, "", error, {}}});
+    items.finish();
     return true;
 }
 
@@ -235,46 +283,54 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
                     const std::function<void(ReadItem&&)>& fn, std::string& error) {
     const std::string source = source_name(file);
     HeldItems items(source, fn);
-    std::vector<Finding> found;  // file findings not yet given to an item
     const auto read_message = [&](std::string_view text) {
         auto outcome = astm::read_e1394(text, *c.profile, &offset_of, source);
-        found.insert(found.end(), outcome.findings.begin(), outcome.findings.end());
+        items.found(std::move(outcome.findings));
         for (auto& r : outcome.results) {
             ReadItem item;
             item.source = items.next_source();
             item.read = true;
             item.findings = r.findings;
             item.result = std::move(r);
-            items.push(std::move(item), std::exchange(found, {}));
+            items.push(std::move(item));
         }
     };
     const auto discarded = [&](const std::vector<astm::Discard>& ds, const char* what) {
+        std::vector<Finding> fs;
         for (const auto& d : ds)
-            found.push_back(
+            fs.push_back(
                 Finding{"astm.message-discarded",
                         Severity::error,
                         "",
                         source + ": " + what + " (" + std::string(astm::to_string(d.reason)) + ")",
                         {}});
+        items.found(std::move(fs));
     };
     const auto take = [&](astm::ReceiverActions&& actions) {
         discarded(actions.discards, "a partial message was dropped");
+        std::vector<Finding> refused;
         for (const auto& e : actions.frame_errors)
-            found.push_back(
+            refused.push_back(
                 Finding{"astm.frame-refused",
                         Severity::warning,
                         "",
                         source + ": a frame was refused and would be NAKed: " + e.message,
                         {}});
+        items.found(std::move(refused));
         for (const auto& m : actions.messages) read_message(m);
     };
+    // Framed or plain is settled by the first bytes that are not blank, not by
+    // how the first read happened to end: E1381 starts with control bytes
+    // (ENQ, STX), E1394 text with a record letter.
     std::optional<bool> framed;
+    std::string undecided;
     astm::LinkReceiver receiver;
     std::string text;  // plain E1394: what is not yet known to be a whole message
     std::size_t scanned = 0;
     const auto plain = [&](std::string_view piece, bool at_end) {
         text.append(piece);
         // A record starts a line; an H record ('H' then its field delimiter) a message.
+        std::size_t cut = 0;                     // text before it is read
         std::size_t resume = std::string::npos;  // where to look again once more has come
         for (std::size_t at = text.find_first_of("\r\n", scanned); at != std::string::npos;
              at = text.find_first_of("\r\n", at + 1)) {
@@ -285,25 +341,31 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
             const char next = text[at + 1];
             const unsigned char delimiter = static_cast<unsigned char>(text[at + 2]);
             if (next == 'H' && !std::isalnum(delimiter) && delimiter > ' ') {
-                read_message(std::string_view(text).substr(0, at + 1));
-                text.erase(0, at + 1);
-                at = 0;
+                read_message(std::string_view(text).substr(cut, at + 1 - cut));
+                cut = at + 1;
             }
         }
-        scanned = resume == std::string::npos ? text.size() : resume;
+        text.erase(0, cut);  // once a piece: the rest moves once
+        scanned = resume == std::string::npos ? text.size() : resume - cut;
         if (at_end && text.find_first_not_of("\r\n ") != std::string::npos) read_message(text);
+    };
+    const auto feed = [&](std::string_view piece) {
+        if (*framed)
+            take(receiver.feed(piece, 0));
+        else
+            plain(piece, false);
     };
     bool read_any = false;
     const bool ok = read_pieces(
         file,
         [&](std::string_view piece) {
-            if (!framed)
-                framed = piece.find('\x05') != std::string_view::npos ||
-                         piece.find('\x02') != std::string_view::npos;
-            if (*framed)
-                take(receiver.feed(piece, 0));
-            else
-                plain(piece, false);
+            if (framed) return feed(piece);
+            undecided.append(piece);
+            const auto first = undecided.find_first_not_of("\r\n \t");
+            if (first == std::string::npos) return;
+            framed = static_cast<unsigned char>(undecided[first]) < 0x20 ||
+                     undecided.find_first_of("\x05\x02") != std::string::npos;
+            feed(std::exchange(undecided, {}));
         },
         error, &read_any);
     if (!ok && !read_any) return false;
@@ -311,10 +373,10 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
         auto end = receiver.reset();
         discarded(end.discards, "the capture ends inside a message");
     } else {
-        plain({}, true);
+        plain(undecided, true);
     }
-    if (!ok) found.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
-    items.finish(std::move(found));
+    if (!ok) items.found({Finding{"read.unreadable", Severity::error, "", error, {}}});
+    items.finish();
     return true;
 }
 

@@ -3,6 +3,7 @@
 
 #include <cstdio>
 #include <map>
+#include <nlohmann/json.hpp>
 #include <string>
 #include <vector>
 
@@ -29,6 +30,13 @@ void print_summary(std::FILE* out, const RunCounts& counts,
 // DECISIONS.md exit status: 3 if an input could not be read at all, else 1 if
 // any result was blocked, else 0.
 int exit_code_for(const RunCounts& counts);
+
+// JSON text of `j` (indent -1: one line). A finding may quote bytes a device
+// sent that are not UTF-8 (a Latin-1 segment in a UTF-8 message): they become
+// U+FFFD here rather than stop the run.
+inline std::string safe_dump(const nlohmann::json& j, int indent) {
+    return j.dump(indent, ' ', false, nlohmann::json::error_handler_t::replace);
+}
 
 // The caution every human-readable output carries.
 inline constexpr const char* kCaution =

@@ -103,14 +103,37 @@ skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skipp
 skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/j1/summary.json")
 [ "$skipped" -eq 0 ] && ok || bad "a run with other options skipped $skipped"
 
+# Two inputs with one result id: the later one's file stays, run after run
+# (the manifest's last line for a path is the one its file must match).
+mkdir -p "$work/dup"
+cp samples/lab/2026-03-02-brennigan-spirometry.json "$work/dup/a.json"
+python3 - samples/lab/2026-03-02-brennigan-spirometry.json "$work/dup/b.json" <<'PY'
+import json, sys
+d = json.load(open(sys.argv[1]))
+d["tests"][0].setdefault("comments", []).append("a second export of the same session")
+json.dump(d, open(sys.argv[2], "w"))
+PY
+"$pftgw" convert --quiet --to neutral-json --out "$work/dup-out" "$work/dup" 2>/dev/null
+first=$(md5sum < "$work"/dup-out/KVH-SPX3-004712.json)
+"$pftgw" convert --quiet --to neutral-json --out "$work/dup-out" "$work/dup" 2>/dev/null
+"$pftgw" convert --quiet --to neutral-json --out "$work/dup-out" "$work/dup" 2>/dev/null
+again=$(md5sum < "$work"/dup-out/KVH-SPX3-004712.json)
+skipped=$(python3 -c "import json,sys; print(json.load(open(sys.argv[1]))['skippedAlreadyWritten'])" "$work/dup-out/summary.json")
+[ "$first" = "$again" ] && [ "$skipped" -eq 2 ] && grep -q 'a second export' "$work"/dup-out/KVH-SPX3-004712.json && ok ||
+  bad "same id twice: the output changed between resumed runs or was not the later input's (skipped $skipped)"
+
 # Many rejects: the first 20 are shown with their findings, every one is in rejects.jsonl.
 mkdir -p "$work/bad25"
 for i in $(seq 1 25); do cp samples/lab/bad-unit-not-ucum.json "$work/bad25/b$i.json"; done
 "$pftgw" convert --to fhir-json --out "$work/bad25-out" "$work/bad25" > /dev/null 2> "$work/bad25.err"
 shown=$(grep -c '^blocked' "$work/bad25.err")
 listed=$(wc -l < "$work/bad25-out/rejects.jsonl")
-[ "$shown" -eq 20 ] && [ "$listed" -eq 25 ] && grep -q 'the rest are only in' "$work/bad25.err" && ok ||
+[ "$shown" -eq 20 ] && [ "$listed" -eq 25 ] && grep -q 'only the first 20 are shown' "$work/bad25.err" && ok ||
   bad "25 rejects: $shown shown (20 expected), $listed in rejects.jsonl (25 expected)"
+rm "$work"/bad25/b2[1-5].json  # exactly 20: all shown, no note of more
+"$pftgw" convert --to fhir-json --out "$work/bad20-out" "$work/bad25" > /dev/null 2> "$work/bad20.err"
+[ "$(grep -c '^blocked' "$work/bad20.err")" -eq 20 ] && ! grep -q 'more rejected' "$work/bad20.err" && ok ||
+  bad "20 rejects: not all shown, or a note of more"
 
 # Neutral documents on standard input ("-"): one XML document, and JSON Lines
 # (each line a result, named stdin:LINE) give what the files give.

@@ -118,6 +118,64 @@ for f in many many-capture; do
   [ "$rc" -eq 0 ] && [ "$n" -eq 3000 ] && ok || bad "ASTM $f: exit $rc, $n results, expected 3000"
 done
 
+# Framed or plain is settled by the first bytes that are not blank, not by how
+# the first read of a pipe happens to end.
+(printf '\r\n'; sleep 0.3; cat "$work/capture.astm") |
+  "$pftgw" check --from astm --profile "$profile" - > "$work/pipe.txt"
+grep -q '^ok  *stdin#1' "$work/pipe.txt" && ok || { bad "an E1381 capture on a slow pipe was not read as one"; head -5 "$work/pipe.txt"; }
+
+# A message cut short between two whole ones: it is its own reject, and the
+# two complete sessions around it are written.
+python3 - samples/exports/spx3-ilvesson-2026-03-20.astm "$work/cut.astm" <<'PY'
+import sys
+text = open(sys.argv[1], 'rb').read()
+def frames(msg):  # E1381 frames as above: STX FN text ETX C1 C2 CR LF
+    out = b''
+    for i, rec in enumerate(r + b'\r' for r in msg.split(b'\r') if r):
+        body = str((i + 1) % 8).encode() + rec + b'\x03'
+        out += b'\x02' + body + ('%02X' % (sum(body) % 256)).encode() + b'\r\n'
+    return out
+whole = lambda n: b'\x05' + frames(text.replace(b'004801', n)) + b'\x04'
+cut = b'\x05' + b'\x02'.join(frames(text).split(b'\x02')[:4]) + b'\x04'  # three frames, then EOT
+open(sys.argv[2], 'wb').write(whole(b'004811') + cut + whole(b'004812'))
+PY
+"$pftgw" convert --quiet --from astm --profile "$profile" --to neutral-json --out "$work/cut" "$work/cut.astm"
+python3 - "$work/cut" <<'PY' && ok || bad "a message cut short blocked its neighbours"
+import json, os, sys
+out = sys.argv[1]
+s = json.load(open(os.path.join(out, "summary.json")))
+rejects = [json.loads(l) for l in open(os.path.join(out, "rejects.jsonl"))]
+ok = (s["written"] == 2 and s["unreadable"] == 1 and len(rejects) == 1
+      and rejects[0]["source"].endswith("cut.astm") and rejects[0]["id"] == ""
+      and os.path.exists(os.path.join(out, "SPX3-004811.json"))
+      and os.path.exists(os.path.join(out, "SPX3-004812.json")))
+if not ok:
+    print(s, rejects)
+sys.exit(0 if ok else 1)
+PY
+
+# A BTS count that disagrees is reported with the last message of its own
+# batch, not with the next batch's; a Latin-1 byte in a stray segment of a
+# UTF-8 file still gives valid JSON.
+python3 - samples/exports/spx3-ilvesson-2026-03-20.hl7 "$work/bts.hl7" <<'PY'
+import sys
+msg = open(sys.argv[1], 'rb').read()
+out = (b"BHS|^~\\&\r" + msg + b"BTS|5\r" + b"ZZZ|caf\xe9\r" +
+       b"BHS|^~\\&\r" + msg.replace(b"004801", b"004802") + b"BTS|1\r")
+open(sys.argv[2], 'wb').write(out)
+PY
+"$pftgw" check --format json --from hl7v2 --profile "$profile" "$work/bts.hl7" > "$work/bts.json"
+python3 - "$work/bts.json" <<'PY' && ok || bad "the BTS count travels with the wrong message, or the JSON is broken"
+import json, sys
+d = json.load(open(sys.argv[1]))
+rules = [[f["rule"] for f in r["findings"]] for r in d["results"]]
+ok = (len(rules) == 2 and "hl7.batch-count" in rules[0] and "hl7.batch-count" not in rules[1]
+      and "hl7.stray-segment" in rules[1])
+if not ok:
+    print(rules)
+sys.exit(0 if ok else 1)
+PY
+
 # An HL7 batch file (FHS/BHS ... BTS/FTS, three sessions, LF segment ends):
 # the same outputs with 1 and 2 jobs, a second run skips all three, and a
 # profile whose content changed (same file name) converts them again.

@@ -179,10 +179,16 @@ nlohmann::json reject_json(const Work& w) {
     nlohmann::json findings = nlohmann::json::array();
     for (const auto& f : w.processed.findings) {
         if (f.severity == Severity::info) continue;
+        // What was seen travels too (an unmapped code's value and unit): a
+        // reject can be mended from this line alone.
+        nlohmann::json values = nlohmann::json::array();
+        for (const auto& [name, value] : f.values)
+            values.push_back({{"name", name}, {"value", value}});
         findings.push_back({{"rule", f.rule},
                             {"severity", std::string(to_string(f.severity))},
                             {"path", f.path},
-                            {"message", f.message}});
+                            {"message", f.message},
+                            {"values", values}});
     }
     return {{"source", w.processed.source.empty() ? w.item.source : w.processed.source},
             {"id", w.processed.result ? w.processed.result->id : ""},

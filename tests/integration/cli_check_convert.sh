@@ -130,6 +130,12 @@ shown=$(grep -c '^blocked' "$work/bad25.err")
 listed=$(wc -l < "$work/bad25-out/rejects.jsonl")
 [ "$shown" -eq 20 ] && [ "$listed" -eq 25 ] && grep -q 'only the first 20 are shown' "$work/bad25.err" && ok ||
   bad "25 rejects: $shown shown (20 expected), $listed in rejects.jsonl (25 expected)"
+python3 - "$work/bad25-out/rejects.jsonl" <<'PY' && ok || bad "rejects.jsonl does not carry what was seen"
+import json, sys
+r = json.loads(open(sys.argv[1]).readline())
+f = [f for f in r["findings"] if f["rule"] == "unit.unknown"][0]
+sys.exit(0 if {"name": "unit", "value": "mL/min/mmHg"} in f["values"] else 1)
+PY
 rm "$work"/bad25/b2[1-5].json  # exactly 20: all shown, no note of more
 "$pftgw" convert --to fhir-json --out "$work/bad20-out" "$work/bad25" > /dev/null 2> "$work/bad20.err"
 [ "$(grep -c '^blocked' "$work/bad20.err")" -eq 20 ] && ! grep -q 'more rejected' "$work/bad20.err" && ok ||

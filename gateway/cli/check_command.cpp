@@ -37,6 +37,23 @@ nlohmann::json finding_json(const Finding& f) {
             {"values", values}};
 }
 
+// The ACK an HL7 message gets, after its findings: its segments but the MSH,
+// one a line ("reply    MSA|AE|SPX3-004801").
+void print_reply_text(const std::string& reply) {
+    std::size_t start = 0;
+    bool first = true;
+    while (start < reply.size()) {
+        std::size_t end = reply.find('\r', start);
+        if (end == std::string::npos) end = reply.size();
+        const std::string_view segment(reply.data() + start, end - start);
+        if (!segment.empty() && segment.substr(0, 3) != "MSH") {
+            fmt::print("    {:<7}  {}\n", first ? "reply" : "", segment);
+            first = false;
+        }
+        start = end + 1;
+    }
+}
+
 const char* outcome_of(const Processed& p) {
     return !p.result                  ? "unreadable"
            : p.blocked()              ? "error"
@@ -57,6 +74,7 @@ public:
     void add(Processed&& p) {
         if (format_ == "text") {
             print_findings_text(stdout, p, outcome_of(p));
+            print_reply_text(p.reply);
         } else if (format_ == "json") {
             print_json(p);
         } else {
@@ -89,12 +107,13 @@ private:
     void print_json(const Processed& p) {
         nlohmann::json findings = nlohmann::json::array();
         for (const auto& f : p.findings) findings.push_back(finding_json(f));
-        const nlohmann::json r = {{"source", p.source},
-                                  {"id", p.result ? p.result->id : ""},
-                                  {"readable", p.result.has_value()},
-                                  {"errors", count_severity(p.findings, Severity::error)},
-                                  {"warnings", count_severity(p.findings, Severity::warning)},
-                                  {"findings", findings}};
+        nlohmann::json r = {{"source", p.source},
+                            {"id", p.result ? p.result->id : ""},
+                            {"readable", p.result.has_value()},
+                            {"errors", count_severity(p.findings, Severity::error)},
+                            {"warnings", count_severity(p.findings, Severity::warning)},
+                            {"findings", findings}};
+        if (!p.reply.empty()) r["reply"] = p.reply;  // the ACK, segments ending in CR
         // Indented as one element of the results array.
         std::string text = safe_dump(r, 2);
         std::string indented = "\n    ";
@@ -176,6 +195,8 @@ int run_check(const CheckOptions& o) {
     InputContext input;
     std::optional<DeviceProfile> profile;
     if (!make_input_context(o.input, input, profile, "check")) return kExitUsage;
+    // A device maker sees the ACK or NAK each HL7 message would get.
+    input.keep_hl7_messages = input.from == InputFormat::hl7v2;
     const auto files = find_inputs(o.inputs, input.from, missing);
     Report report(o.format);
     RunCounts counts;

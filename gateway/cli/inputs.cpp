@@ -418,7 +418,12 @@ void finish_reading(ReadItem& item, const InputContext& c) {
     // The reader's findings travel in the result too; file findings come first.
     const std::vector<Finding>& read = m.result ? m.result->findings : m.findings;
     item.findings.insert(item.findings.end(), read.begin(), read.end());
-    item.result = std::move(m.result);
+    if (c.keep_hl7_messages) {
+        item.result = m.result;  // a copy: the message keeps its own for the ACK's code
+        item.hl7_message = std::make_shared<const hl7v2::ReadMessage>(std::move(m));
+    } else {
+        item.result = std::move(m.result);
+    }
     item.read = true;
     item.bytes = std::string();  // the message is read: its bytes are not needed any more
 }

@@ -6,12 +6,17 @@
 
 #include <filesystem>
 #include <functional>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
 
 #include "gateway/core/device_profile.hpp"
 #include "gateway/core/model.hpp"
+
+namespace pftgw::hl7v2 {
+struct ReadMessage;
+}
 
 namespace pftgw::cli {
 
@@ -28,11 +33,14 @@ struct ReadItem {
     bool read = false;                    // true: result/findings below come from a reader
     std::optional<NeutralResult> result;  // device readers: the result as received
     std::vector<Finding> findings;        // about this result or its input (file findings too)
+    // HL7, when InputContext::keep_hl7_messages: the message as read, for its ACK.
+    std::shared_ptr<const hl7v2::ReadMessage> hl7_message;
 };
 
 struct InputContext {
     InputFormat from = InputFormat::neutral;
     const DeviceProfile* profile = nullptr;  // required for astm and csv
+    bool keep_hl7_messages = false;          // check: each HL7 message's ACK is shown
 };
 
 // Reads an HL7 message left as bytes by for_each_item() (any thread; the

@@ -7,6 +7,7 @@
 #include <fstream>
 #include <sstream>
 
+#include "adapters/hl7v2/ack_writer.hpp"
 #include "adapters/neutral/neutral_io.hpp"
 #include "gateway/core/quantity_table.hpp"
 
@@ -103,12 +104,24 @@ Processed process(ReadItem&& item, const ProcessOptions& options, const InputCon
         // The reader's findings travel in the result like every other.
         if (read_result) add_unique(read_result->findings, std::vector<Finding>(out.findings));
     }
-    if (!read_result) return out;
+    if (!read_result) {
+        if (item.hl7_message) out.reply = hl7v2::acknowledge(*item.hl7_message);
+        return out;
+    }
     NeutralResult result = std::move(*read_result);
     prepare_result(result, options, quantity_table());
     // What the gateway writes follows the current schema version.
     result.schema_version = "1." + std::to_string(neutral::kSchemaMinor);
     add_unique(out.findings, std::vector<Finding>(result.findings));
+    if (item.hl7_message) {
+        // The ACK lists the reader's findings and those normalize and validate added.
+        const std::vector<Finding>& by_reader = item.hl7_message->findings;
+        std::vector<Finding> later;
+        for (const Finding& f : result.findings)
+            if (std::find(by_reader.begin(), by_reader.end(), f) == by_reader.end())
+                later.push_back(f);
+        out.reply = hl7v2::acknowledge(*item.hl7_message, later);
+    }
     out.result = std::move(result);
     return out;
 }

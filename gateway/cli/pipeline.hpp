@@ -20,6 +20,9 @@ struct Processed {
     std::string source;
     std::optional<NeutralResult> result;  // absent when nothing could be read
     std::vector<Finding> findings;        // reader + normalize + validate, in that order
+    // HL7 input read with InputContext::keep_hl7_messages: the ACK the gateway
+    // answers this message with (segments end in CR); empty when the MSH was unreadable.
+    std::string reply;
     bool blocked() const { return !result || has_errors(findings); }
 };
 

@@ -118,6 +118,22 @@ for f in many many-capture; do
   [ "$rc" -eq 0 ] && [ "$n" -eq 3000 ] && ok || bad "ASTM $f: exit $rc, $n results, expected 3000"
 done
 
+# check shows the ACK each HL7 message gets: AA for the sample; AE, with an ERR
+# naming the OBX, when a unit the gateway cannot read arrives (HL7 2.3: ERR-1).
+"$pftgw" check --from hl7v2 --profile "$profile" samples/exports/spx3-ilvesson-2026-03-20.hl7 > "$work/ack-ok.txt"
+grep -q '^    reply    MSA|AA|SPX3-004801$' "$work/ack-ok.txt" && ok || { bad "no AA reply shown"; cat "$work/ack-ok.txt"; }
+sed 's/|755|mmHg|/|755|mmhg|/' samples/exports/spx3-ilvesson-2026-03-20.hl7 > "$work/ack-bad.hl7"
+"$pftgw" check --format json --from hl7v2 --profile "$profile" "$work/ack-bad.hl7" > "$work/ack-bad.json"
+python3 - "$work/ack-bad.json" <<'PY' && ok || bad "the AE reply is missing from check --format json"
+import json, sys
+r = json.load(open(sys.argv[1]))["results"][0]
+segs = r.get("reply", "").split("\r")
+ok = segs[0].startswith("MSH|") and "MSA|AE|SPX3-004801" in segs and any(s.startswith("ERR|OBX^2^6") for s in segs)
+if not ok:
+    print(segs)
+sys.exit(0 if ok else 1)
+PY
+
 # Framed or plain is settled by the first bytes that are not blank, not by how
 # the first read of a pipe happens to end.
 (printf '\r\n'; sleep 0.3; cat "$work/capture.astm") |

@@ -5,7 +5,6 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include <cctype>
 #include <cerrno>
 #include <cstring>
 #include <fstream>
@@ -13,6 +12,7 @@
 #include <nlohmann/json.hpp>
 
 #include "adapters/astm/link_receiver.hpp"
+#include "adapters/astm/message_splitter.hpp"
 #include "adapters/astm/record_reader.hpp"
 #include "adapters/csv/csv_reader.hpp"
 #include "adapters/hl7v2/oru_reader.hpp"
@@ -23,54 +23,8 @@ namespace fs = std::filesystem;
 namespace pftgw::cli {
 namespace {
 
-constexpr std::size_t kCsvChunkBytes = 64 * 1024;    // memory does not grow with the file
-constexpr std::size_t kReadChunkBytes = 256 * 1024;  // HL7 and ASTM files: read in pieces
-
-bool read_fd(int fd, const std::string& name, std::string& out, std::string& error) {
-    // One read into a buffer of the file's size when it has one: no stream
-    // buffers, no copies. Pipes grow the buffer as they go.
-    struct stat st {};
-    std::size_t used = 0;
-    out.clear();
-    if (::fstat(fd, &st) == 0 && S_ISREG(st.st_mode) && st.st_size > 0)
-        out.resize(static_cast<std::size_t>(st.st_size));
-    for (;;) {
-        if (used == out.size()) out.resize(used + std::max<std::size_t>(4096, used));
-        const ssize_t n = ::read(fd, out.data() + used, out.size() - used);
-        if (n < 0 && errno == EINTR) continue;
-        if (n < 0) {
-            error = "cannot read " + name + ": " + std::strerror(errno);
-            return false;
-        }
-        if (n == 0) break;
-        used += static_cast<std::size_t>(n);
-    }
-    out.resize(used);
-    return true;
-}
-
-bool read_whole(const fs::path& file, std::string& out, std::string& error) {
-    if (is_stdin(file)) return read_fd(STDIN_FILENO, std::string(kStdinSource), out, error);
-    const int fd = ::open(file.c_str(), O_RDONLY | O_CLOEXEC);
-    if (fd < 0) {
-        error = "cannot open " + file.string() + ": " + std::strerror(errno);
-        return false;
-    }
-    const bool ok = read_fd(fd, file.string(), out, error);
-    ::close(fd);
-    return ok;
-}
-
-// The file, or standard input for "-"; nullptr (with `error`) when it cannot be opened.
-std::istream* open_input(const fs::path& file, std::ifstream& storage, std::string& error) {
-    if (is_stdin(file)) return &std::cin;
-    storage.open(file, std::ios::binary);
-    if (!storage) {
-        error = "cannot open " + file.string();
-        return nullptr;
-    }
-    return &storage;
-}
+// Every device file is read in pieces this size: memory does not grow with it.
+constexpr std::size_t kReadChunkBytes = 256 * 1024;
 
 // JSON Lines, line by line: an archive is never held in memory whole.
 // `first` is a line already taken from `in`, with `lines_before` lines before it.
@@ -235,6 +189,13 @@ bool read_pieces(const fs::path& file, const std::function<void(std::string_view
     return ok;
 }
 
+// A neutral document, whole (it is one result).
+bool read_whole(const fs::path& file, std::string& out, std::string& error) {
+    out.clear();
+    return read_pieces(
+        file, [&](std::string_view piece) { out.append(piece); }, error, nullptr);
+}
+
 // HL7: splits only, streaming. Each message goes on as bytes, read later by
 // finish_reading(); memory holds a message or two, whatever the file's size.
 bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& fn,
@@ -275,8 +236,8 @@ bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& 
     return true;
 }
 
-// ASTM, streaming: an E1381 capture (it holds ENQ or STX in its first piece)
-// goes through the link receiver piece by piece, exactly as on a serial port
+// ASTM, streaming: an E1381 capture (its first bytes that are not blank are
+// control bytes) goes through the link receiver piece by piece, exactly as on a serial port
 // (checksums, frame numbers); plain E1394 text is cut before each H record.
 // Each completed message is read as it comes; memory holds one message.
 bool read_astm_file(const fs::path& file, const InputContext& c,
@@ -325,35 +286,13 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
     std::optional<bool> framed;
     std::string undecided;
     astm::LinkReceiver receiver;
-    std::string text;  // plain E1394: what is not yet known to be a whole message
-    std::size_t scanned = 0;
-    const auto plain = [&](std::string_view piece, bool at_end) {
-        text.append(piece);
-        // A record starts a line; an H record ('H' then its field delimiter) a message.
-        std::size_t cut = 0;                     // text before it is read
-        std::size_t resume = std::string::npos;  // where to look again once more has come
-        for (std::size_t at = text.find_first_of("\r\n", scanned); at != std::string::npos;
-             at = text.find_first_of("\r\n", at + 1)) {
-            if (at + 2 >= text.size()) {  // the next line's start is not here yet
-                resume = at;
-                break;
-            }
-            const char next = text[at + 1];
-            const unsigned char delimiter = static_cast<unsigned char>(text[at + 2]);
-            if (next == 'H' && !std::isalnum(delimiter) && delimiter > ' ') {
-                read_message(std::string_view(text).substr(cut, at + 1 - cut));
-                cut = at + 1;
-            }
-        }
-        text.erase(0, cut);  // once a piece: the rest moves once
-        scanned = resume == std::string::npos ? text.size() : resume - cut;
-        if (at_end && text.find_first_not_of("\r\n ") != std::string::npos) read_message(text);
-    };
+    astm::E1394Splitter plain;
+    const astm::E1394Splitter::MessageFn on_message = read_message;
     const auto feed = [&](std::string_view piece) {
         if (*framed)
             take(receiver.feed(piece, 0));
         else
-            plain(piece, false);
+            plain.feed(piece, on_message);
     };
     bool read_any = false;
     const bool ok = read_pieces(
@@ -373,7 +312,8 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
         auto end = receiver.reset();
         discarded(end.discards, "the capture ends inside a message");
     } else {
-        plain(undecided, true);
+        plain.feed(undecided, on_message);
+        plain.finish(on_message);
     }
     if (!ok) items.found({Finding{"read.unreadable", Severity::error, "", error, {}}});
     items.finish();
@@ -382,10 +322,6 @@ bool read_astm_file(const fs::path& file, const InputContext& c,
 
 bool read_csv_file(const fs::path& file, const InputContext& c,
                    const std::function<void(ReadItem&&)>& fn, std::string& error) {
-    std::ifstream storage;
-    std::istream* stream = open_input(file, storage, error);
-    if (!stream) return false;
-    std::istream& in = *stream;
     csv::CsvReader reader(*c.profile, &offset_of, source_name(file));
     const csv::Emit emit = [&](csv::CsvRecord&& rec) {
         ReadItem item;
@@ -398,12 +334,18 @@ bool read_csv_file(const fs::path& file, const InputContext& c,
                                          item.findings.end());
         fn(std::move(item));
     };
-    static thread_local std::string chunk(kCsvChunkBytes, '\0');  // filled once, not per file
-    while (in) {
-        in.read(chunk.data(), static_cast<std::streamsize>(chunk.size()));
-        reader.feed(std::string_view(chunk.data(), static_cast<std::size_t>(in.gcount())), emit);
-    }
+    bool read_any = false;
+    const bool ok = read_pieces(
+        file, [&](std::string_view piece) { reader.feed(piece, emit); }, error, &read_any);
+    if (!ok && !read_any) return false;
     reader.finish(emit);
+    if (!ok) {  // the rows read so far stand; the failure is a reject of its own
+        ReadItem lone;
+        lone.source = source_name(file);
+        lone.read = true;
+        lone.findings.push_back(Finding{"read.unreadable", Severity::error, "", error, {}});
+        fn(std::move(lone));
+    }
     return true;
 }
 

@@ -27,16 +27,6 @@ std::size_t count_severity(const std::vector<Finding>& fs, Severity s) {
         std::count_if(fs.begin(), fs.end(), [s](const Finding& f) { return f.severity == s; }));
 }
 
-nlohmann::json finding_json(const Finding& f) {
-    nlohmann::json values = nlohmann::json::array();
-    for (const auto& [name, value] : f.values) values.push_back({{"name", name}, {"value", value}});
-    return {{"rule", f.rule},
-            {"severity", std::string(to_string(f.severity))},
-            {"path", f.path},
-            {"message", f.message},
-            {"values", values}};
-}
-
 // The ACK an HL7 message gets, after its findings: its segments but the MSH,
 // one a line ("reply    MSA|AE|SPX3-004801").
 void print_reply_text(const std::string& reply) {

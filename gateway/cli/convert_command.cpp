@@ -177,19 +177,8 @@ std::string resume_material(const ReadItem& item) {
 
 nlohmann::json reject_json(const Work& w) {
     nlohmann::json findings = nlohmann::json::array();
-    for (const auto& f : w.processed.findings) {
-        if (f.severity == Severity::info) continue;
-        // What was seen travels too (an unmapped code's value and unit): a
-        // reject can be mended from this line alone.
-        nlohmann::json values = nlohmann::json::array();
-        for (const auto& [name, value] : f.values)
-            values.push_back({{"name", name}, {"value", value}});
-        findings.push_back({{"rule", f.rule},
-                            {"severity", std::string(to_string(f.severity))},
-                            {"path", f.path},
-                            {"message", f.message},
-                            {"values", values}});
-    }
+    for (const auto& f : w.processed.findings)
+        if (f.severity != Severity::info) findings.push_back(finding_json(f));
     return {{"source", w.processed.source.empty() ? w.item.source : w.processed.source},
             {"id", w.processed.result ? w.processed.result->id : ""},
             {"outcome", w.outcome == Outcome::unreadable ? "unreadable" : "blocked"},

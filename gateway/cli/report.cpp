@@ -9,6 +9,16 @@
 
 namespace pftgw::cli {
 
+nlohmann::json finding_json(const Finding& f) {
+    nlohmann::json values = nlohmann::json::array();
+    for (const auto& [name, value] : f.values) values.push_back({{"name", name}, {"value", value}});
+    return {{"rule", f.rule},
+            {"severity", std::string(to_string(f.severity))},
+            {"path", f.path},
+            {"message", f.message},
+            {"values", values}};
+}
+
 bool has_warnings(const std::vector<Finding>& findings) {
     return std::any_of(findings.begin(), findings.end(),
                        [](const Finding& f) { return f.severity == Severity::warning; });

@@ -21,6 +21,10 @@ struct RunCounts {
 
 bool has_warnings(const std::vector<Finding>& findings);
 
+// A finding in the JSON outputs (check --format json, rejects.jsonl): rule,
+// severity, path, message and what was seen ("values": [{name, value}]).
+nlohmann::json finding_json(const Finding& f);
+
 // "blocked  samples/lab/x.xml (id ...)" then one indented line per finding.
 void print_findings_text(std::FILE* out, const Processed& p, const char* outcome);
 

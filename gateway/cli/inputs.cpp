@@ -159,9 +159,8 @@ private:
     bool any_ = false;  // something was handed on
 };
 
-// Reads `file` (or standard input) in pieces, giving each to `piece`. False,
-// with `error`, when it cannot be opened or a read fails (`read_any` says
-// whether anything was read before that).
+}  // namespace
+
 bool read_pieces(const fs::path& file, const std::function<void(std::string_view)>& piece,
                  std::string& error, bool* read_any) {
     const std::string source = source_name(file);
@@ -188,6 +187,8 @@ bool read_pieces(const fs::path& file, const std::function<void(std::string_view
     if (!is_stdin(file)) ::close(fd);
     return ok;
 }
+
+namespace {
 
 // A neutral document, whole (it is one result).
 bool read_whole(const fs::path& file, std::string& out, std::string& error) {

@@ -62,6 +62,14 @@ inline constexpr std::string_view kStdinSource = "stdin";
 bool is_stdin(const std::filesystem::path& p);
 std::string source_name(const std::filesystem::path& p);  // "stdin" for "-"
 
+// Reads `file` (or standard input for "-") in pieces of 256 KiB, giving each
+// to `piece`: every reader and the counting use it. False, with `error`, when
+// it cannot be opened or a read fails (`read_any`, if given, says whether
+// anything was read before that).
+bool read_pieces(const std::filesystem::path& file,
+                 const std::function<void(std::string_view)>& piece, std::string& error,
+                 bool* read_any);
+
 // Which files of a folder are inputs for `from`.
 bool is_input_file(const std::filesystem::path& p, InputFormat from);
 

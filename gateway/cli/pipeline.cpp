@@ -4,8 +4,6 @@
 #include <algorithm>
 #include <cerrno>
 #include <cstring>
-#include <fstream>
-#include <sstream>
 
 #include "adapters/hl7v2/ack_writer.hpp"
 #include "adapters/neutral/neutral_io.hpp"
@@ -65,19 +63,20 @@ std::size_t count_documents(const fs::path& file, InputFormat from) {
     const std::string_view marker = from == InputFormat::hl7v2  ? std::string_view("MSH")
                                     : from == InputFormat::astm ? std::string_view("\rO|")
                                                                 : std::string_view("\n");
-    std::ifstream in(file, std::ios::binary);
     std::string buffer;
     std::size_t n = 0;
-    static thread_local std::string chunk(64 * 1024, '\0');  // filled once, not per file
-    while (in) {
-        in.read(chunk.data(), static_cast<std::streamsize>(chunk.size()));
-        // Keep the marker's length minus one from the previous chunk, so a marker
-        // split over two chunks is counted once.
-        const std::size_t keep = std::min(buffer.size(), marker.size() - 1);
-        buffer.erase(0, buffer.size() - keep);
-        buffer.append(chunk.data(), static_cast<std::size_t>(in.gcount()));
-        n += count_of(buffer, marker);
-    }
+    std::string error;  // a file that cannot be read counts as one: reading it will say why
+    (void)read_pieces(
+        file,
+        [&](std::string_view piece) {
+            // Keep the marker's length minus one from the previous piece, so a
+            // marker split over two pieces is counted once.
+            const std::size_t keep = std::min(buffer.size(), marker.size() - 1);
+            buffer.erase(0, buffer.size() - keep);
+            buffer.append(piece);
+            n += count_of(buffer, marker);
+        },
+        error, nullptr);
     switch (from) {
         case InputFormat::neutral:
         case InputFormat::csv:

@@ -926,13 +926,13 @@ void Hl7Splitter::flush(const MessageFn& fn) {
     if (!in_message_) return;
     in_message_ = false;
     ++batch_messages_;
-    fn(buf_.substr(msg_begin_, msg_end_ - msg_begin_), base_ + msg_begin_);
+    fn(std::string_view(buf_).substr(msg_begin_, msg_end_ - msg_begin_), base_ + msg_begin_);
 }
 
 Hl7Split split_hl7(std::string_view bytes) {
     Hl7Split out;
     Hl7Splitter splitter;
-    const Hl7Splitter::MessageFn fn = [&](std::string&& message, std::size_t offset) {
+    const Hl7Splitter::MessageFn fn = [&](std::string_view message, std::size_t offset) {
         out.messages.push_back({offset, offset + message.size()});
     };
     splitter.feed(bytes, fn);

@@ -118,14 +118,15 @@ struct Hl7Split {
 Hl7Split split_hl7(std::string_view bytes);
 
 // split_hl7() for a stream: bytes are fed in pieces of any size, and each
-// message is handed over, with its own bytes and where they start in the
-// stream, as soon as the segment after it (or the end) shows it complete.
+// message is handed over (its bytes, valid during the call only, and where
+// they start in the stream) as soon as the segment after it, or the end,
+// shows it complete.
 // Memory holds one message and one segment, whatever the stream's length.
 // File findings (stray segments, batch counts) collect in findings() as they
 // are found; take_findings() hands over those found so far.
 class Hl7Splitter {
 public:
-    using MessageFn = std::function<void(std::string&& bytes, std::size_t offset)>;
+    using MessageFn = std::function<void(std::string_view bytes, std::size_t offset)>;
     void feed(std::string_view bytes, const MessageFn& fn);
     void finish(const MessageFn& fn);  // the end of the stream
     std::vector<Finding> take_findings() { return std::exchange(findings_, {}); }

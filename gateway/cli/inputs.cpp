@@ -213,12 +213,12 @@ bool read_hl7_file(const fs::path& file, const std::function<void(ReadItem&&)>& 
         items.found(std::move(counts), true);
         items.found(std::move(others));
     };
-    const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string&& bytes, std::size_t) {
+    const hl7v2::Hl7Splitter::MessageFn on_message = [&](std::string_view bytes, std::size_t) {
         pass_findings();
         ReadItem item;
         item.source = items.next_source();
         item.format = InputFormat::hl7v2;
-        item.bytes = std::move(bytes);
+        item.bytes.assign(bytes);
         items.push(std::move(item));
     };
     bool read_any = false;

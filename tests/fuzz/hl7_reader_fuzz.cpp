@@ -102,7 +102,7 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     const std::size_t piece = size ? static_cast<std::size_t>(data[0]) + 1 : 1;
     Hl7Splitter splitter;
     std::vector<MessageRange> pieces_ranges;
-    const Hl7Splitter::MessageFn fn = [&](std::string&& bytes, std::size_t offset) {
+    const Hl7Splitter::MessageFn fn = [&](std::string_view bytes, std::size_t offset) {
         check(offset + bytes.size() <= size && input.substr(offset, bytes.size()) == bytes);
         pieces_ranges.push_back({offset, offset + bytes.size()});
     };

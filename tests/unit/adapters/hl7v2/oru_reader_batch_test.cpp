@@ -133,8 +133,8 @@ TEST(OruReaderBatch, StreamingSplitterMatchesTheWholeFileWhateverThePieces) {
          {std::size_t{1}, std::size_t{2}, std::size_t{7}, std::size_t{64}, file.size()}) {
         Hl7Splitter splitter;
         std::vector<std::pair<std::string, std::size_t>> got;
-        const Hl7Splitter::MessageFn fn = [&](std::string&& bytes, std::size_t offset) {
-            got.emplace_back(std::move(bytes), offset);
+        const Hl7Splitter::MessageFn fn = [&](std::string_view bytes, std::size_t offset) {
+            got.emplace_back(std::string(bytes), offset);
         };
         for (std::size_t at = 0; at < file.size(); at += piece)
             splitter.feed(std::string_view(file).substr(at, piece), fn);
